@@ -1,1 +1,37 @@
-fn main() {}
+//! The `diffusor` command line: batch work on potential-step transients.
+
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+mod import_args;
+mod inspect;
+
+/// Diffusion coefficients from potential-step chronoamperometry.
+#[derive(Debug, Parser)]
+#[command(name = "diffusor", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Show what was found in each file: dialect, columns and units, rows, time span, step
+    /// onset, sign, segments, baseline and warnings.
+    Inspect(inspect::Args),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Inspect(args) => inspect::run(&args),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("diffusor: {e:#}");
+            ExitCode::from(2)
+        }
+    }
+}

@@ -43,7 +43,7 @@ pub use error::{ImportError, ImportWarning, WarningKind};
 pub use fields::{DecimalMark, Delimiter};
 pub use onset::{Baseline, Onset, OnsetMethod, Polarity, Segment, SegmentKind};
 pub use sniff::{Dialect, LineEnding, MetadataLine, TextEncoding};
-pub use units::{Quantity, Unit};
+pub use units::{Quantity, Unit, format_si};
 
 use parse::{Parsed, Problem};
 
@@ -319,7 +319,7 @@ fn import_from(
     if let Some(e) = decoded_from {
         warnings.push(ImportWarning {
             kind: WarningKind::Decoded,
-            message: format!("decoded from {e:?} text"),
+            message: format!("decoded from {} text", e.name()),
             lines: Vec::new(),
         });
     }

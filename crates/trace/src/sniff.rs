@@ -30,6 +30,19 @@ pub enum TextEncoding {
     Latin1,
 }
 
+impl TextEncoding {
+    /// The usual name of the encoding.
+    pub fn name(self) -> &'static str {
+        match self {
+            TextEncoding::Utf8 => "UTF-8",
+            TextEncoding::Utf8Bom => "UTF-8 with BOM",
+            TextEncoding::Utf16Le => "UTF-16LE",
+            TextEncoding::Utf16Be => "UTF-16BE",
+            TextEncoding::Latin1 => "Latin-1",
+        }
+    }
+}
+
 /// Line endings of the file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -43,6 +56,15 @@ pub enum LineEnding {
 }
 
 impl LineEnding {
+    /// The usual name of the line ending.
+    pub fn name(self) -> &'static str {
+        match self {
+            LineEnding::Lf => "LF",
+            LineEnding::CrLf => "CRLF",
+            LineEnding::Cr => "CR",
+        }
+    }
+
     pub(crate) fn byte(self) -> u8 {
         match self {
             LineEnding::Lf | LineEnding::CrLf => b'\n',

@@ -128,9 +128,60 @@ impl Unit {
     }
 }
 
+/// Writes `value` in engineering notation with an SI prefix and `digits` significant digits,
+/// as `12.3 µA` or `-450 mV`. Zero is written `0 unit`; non-finite values as they are.
+pub fn format_si(value: f64, unit: &str, digits: usize) -> String {
+    if !value.is_finite() {
+        return format!("{value} {unit}");
+    }
+    if value == 0.0 {
+        return format!("0 {unit}");
+    }
+    const PREFIXES: [(i32, &str); 11] = [
+        (-15, "f"),
+        (-12, "p"),
+        (-9, "n"),
+        (-6, "µ"),
+        (-3, "m"),
+        (0, ""),
+        (3, "k"),
+        (6, "M"),
+        (9, "G"),
+        (12, "T"),
+        (15, "P"),
+    ];
+    let digits = digits.max(1);
+    // Round to the requested significant digits first, so 999.96 µ becomes 1.000 m, not 1000 µ.
+    let magnitude = value.abs().log10().floor() as i32;
+    let rounded = {
+        let scale = 10f64.powi(digits as i32 - 1 - magnitude);
+        (value * scale).round() / scale
+    };
+    let magnitude = rounded.abs().log10().floor() as i32;
+    let exp3 = (magnitude.div_euclid(3) * 3).clamp(-15, 15);
+    let prefix = PREFIXES
+        .iter()
+        .find(|(e, _)| *e == exp3)
+        .map_or("", |(_, p)| p);
+    let mantissa = rounded / 10f64.powi(exp3);
+    let int_digits = (mantissa.abs().log10().floor() as i32 + 1).max(1);
+    let decimals = (digits as i32 - int_digits).max(0) as usize;
+    format!("{mantissa:.decimals$} {prefix}{unit}")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn engineering_notation() {
+        assert_eq!(format_si(1.2345e-5, "A", 3), "12.3 µA");
+        assert_eq!(format_si(-0.45, "V", 3), "-450 mV");
+        assert_eq!(format_si(9.9996e-4, "A", 4), "1.000 mA");
+        assert_eq!(format_si(1.5052e-9, "A", 5), "1.5052 nA");
+        assert_eq!(format_si(0.0, "s", 3), "0 s");
+        assert_eq!(format_si(60.0, "s", 3), "60.0 s");
+    }
 
     #[test]
     fn prefixes_scale_to_si() {
