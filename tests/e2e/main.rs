@@ -23,7 +23,7 @@ pub fn diffusor(args: &[&str]) -> Output {
 pub fn demo_files() -> Vec<String> {
     let mut files: Vec<String> = std::fs::read_dir(repo().join("sample-data"))
         .expect("sample-data")
-        .filter_map(|e| e.ok())
+        .filter_map(Result::ok)
         .map(|e| e.file_name().to_string_lossy().into_owned())
         .filter(|n| n.ends_with(".csv") || n.ends_with(".txt"))
         .map(|n| format!("sample-data/{n}"))
