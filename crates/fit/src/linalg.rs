@@ -1052,6 +1052,17 @@ mod tests {
     }
 
     #[test]
+    fn fit_serializes_with_its_field_names() {
+        let x = [0.0, 1.0, 2.0, 3.0];
+        let y = DVector::from_vec(vec![0.1, 1.2, 1.9, 3.2]);
+        let fit = lstsq(&line_design(&x), &y, None).unwrap();
+        let json = serde_json::to_value(&fit).unwrap();
+        assert_eq!(json["coefficients"].as_array().unwrap().len(), 2);
+        assert_eq!(json["r_squared_kind"], "Centred");
+        assert_eq!(json["degrees_of_freedom"], 2);
+    }
+
+    #[test]
     fn weights_match_duplicated_rows() {
         // Weight 2 on a row is the same fit as that row given twice (the
         // normal equations are identical), so the two must agree.

@@ -6,8 +6,8 @@
 //! Watson (ed.), *Numerical Analysis*, Lecture Notes in Mathematics 630,
 //! Springer, 1978, pp. 105–116, and the accompanying description of the
 //! MINPACK routines (Moré, Garbow & Hillstrom, *User Guide for MINPACK-1*,
-//! Argonne report ANL-80-74, 1980, chapter 2). Section numbers below refer to
-//! the 1978 paper.
+//! Argonne report ANL-80-74, 1980, chapter 2); the comments below name the
+//! part of the paper each step comes from.
 
 use argmin::core::{
     Error, IterState, Jacobian, KV, Operator, Problem, Solver, State, TerminationReason,
@@ -52,7 +52,7 @@ struct Work {
     fvec: DVector<f64>,
     /// `‖fvec‖`.
     fnorm: f64,
-    /// Diagonal scaling `D` (§6: the largest column norm of `J` seen so far).
+    /// Diagonal scaling `D` (Moré's implicit scaling: the largest column norm of `J` seen so far).
     diag: DVector<f64>,
     /// Trust-region radius Δ.
     delta: f64,
@@ -95,14 +95,11 @@ impl LevenbergMarquardt {
         self.evaluations
     }
 
+    /// Records why the solver must stop; argmin learns it from
+    /// [`Solver::terminate`] before the next iteration.
     fn stop(&mut self, reason: Termination, state: LmState) -> LmState {
         self.termination = Some(reason);
-        let argmin_reason = if reason.is_converged() {
-            TerminationReason::SolverConverged
-        } else {
-            TerminationReason::SolverExit(reason.to_string())
-        };
-        state.terminate_with(argmin_reason)
+        state
     }
 }
 
@@ -202,11 +199,11 @@ where
             return Err(FitError::NonFiniteJacobian { iteration }.into());
         }
 
-        // QR with column pivoting, J·P = Q·R (§3).
+        // QR with column pivoting, J·P = Q·R, shared by every trial step.
         let qr = qrfac(&mut fjac);
 
         // On the first iteration, scale by the column norms and set the
-        // initial radius to `factor·‖D·x₀‖` (§6, §7).
+        // initial radius to `factor·‖D·x₀‖`, as Moré's algorithm does.
         if work.first {
             for j in 0..n {
                 work.diag[j] = if qr.acnorm[j] == 0.0 {
@@ -246,14 +243,14 @@ where
         }
 
         // Keep D non-decreasing, so the trust region cannot be rescaled
-        // into a region already rejected (§6).
+        // into a region already rejected (Moré's scaling rule).
         for j in 0..n {
             work.diag[j] = work.diag[j].max(qr.acnorm[j]);
         }
 
         let mut r_work = r.clone();
         loop {
-            // Step p minimising ‖J·p + f‖ subject to ‖D·p‖ ≤ Δ (§5).
+            // Step p minimising ‖J·p + f‖ subject to ‖D·p‖ ≤ Δ.
             let lm = lmpar(
                 &mut r_work,
                 &r,
@@ -296,7 +293,7 @@ where
                 f64::INFINITY
             };
 
-            // Actual reduction (§4, eq. 4.3 in scaled form).
+            // Actual relative reduction 1 − (‖f(x+p)‖/‖f(x)‖)².
             let actred = if P1 * fnorm1 < work.fnorm {
                 1.0 - (fnorm1 / work.fnorm).powi(2)
             } else {
@@ -304,7 +301,8 @@ where
             };
 
             // Predicted reduction and directional derivative, from ‖J·p‖
-            // and λ‖D·p‖² (§4).
+            // and λ‖D·p‖², written so that nothing can overflow (Moré's
+            // step-bound update).
             let mut jp = DVector::zeros(n);
             for j in 0..n {
                 let pj = step[qr.ipvt[j]];
@@ -319,7 +317,7 @@ where
 
             let ratio = if prered == 0.0 { 0.0 } else { actred / prered };
 
-            // Radius update (§7).
+            // Radius update from the ratio of actual to predicted reduction.
             if ratio <= P25 {
                 let mut temp = if actred >= 0.0 {
                     P5
@@ -344,7 +342,7 @@ where
                 work.xnorm = enorm_scaled(&work.diag, &x);
             }
 
-            // Convergence tests (§8).
+            // Convergence tests, in MINPACK's order.
             let ftol_met =
                 actred.abs() <= options.ftol && prered <= options.ftol && P5 * ratio <= 1.0;
             let xtol_met = work.delta <= options.xtol * work.xnorm;
@@ -385,8 +383,19 @@ where
         }
     }
 
+    /// The stopping tests run inside [`next_iter`](Solver::next_iter),
+    /// because Moré's tests look at every trial step, accepted or not; this
+    /// hands their verdict to argmin's executor.
     fn terminate(&mut self, _state: &LmState) -> TerminationStatus {
-        TerminationStatus::NotTerminated
+        match self.termination {
+            None => TerminationStatus::NotTerminated,
+            Some(reason) if reason.is_converged() => {
+                TerminationStatus::Terminated(TerminationReason::SolverConverged)
+            }
+            Some(reason) => {
+                TerminationStatus::Terminated(TerminationReason::SolverExit(reason.to_string()))
+            }
+        }
     }
 }
 
@@ -511,13 +520,16 @@ struct LmStep {
     x: DVector<f64>,
 }
 
-/// The Levenberg–Marquardt parameter λ for radius Δ (Moré 1978, §5,
-/// algorithm (5.5)).
+/// The Levenberg–Marquardt parameter λ for radius Δ (Moré 1978, the
+/// section on the Levenberg–Marquardt parameter, after M. D. Hebden, "An
+/// algorithm for minimization using exact second derivatives", Harwell
+/// report TP 515, 1973).
 ///
 /// λ is zero if the Gauss–Newton step already lies within the trust region
 /// (within 10 %); otherwise it is found by the safeguarded Newton iteration
-/// on `φ(λ) = ‖D·x(λ)‖ − Δ`, which keeps λ inside `[l, u]` with the bounds of
-/// (5.6)–(5.7), and stops once `|φ(λ)| ≤ 0.1·Δ` or after ten iterations.
+/// on `φ(λ) = ‖D·x(λ)‖ − Δ`, which keeps λ inside bounds `[l, u]` built
+/// from the Gauss–Newton step and the scaled gradient, and stops once
+/// `|φ(λ)| ≤ 0.1·Δ` or after ten iterations.
 /// Each `x(λ)` comes from [`qrsolv`], a QR of `[J; √λ·D]` built from the
 /// existing `R` by Givens rotations; the normal equations are never formed.
 ///
@@ -568,7 +580,8 @@ fn lmpar(
         return LmStep { par: 0.0, x };
     }
 
-    // Lower bound l of (5.6); zero when J is rank-deficient.
+    // Lower bound l: the Newton iterate for φ from λ = 0; zero when J is
+    // rank-deficient.
     let mut parl = 0.0;
     if nsing >= n {
         for j in 0..n {
@@ -583,7 +596,7 @@ fn lmpar(
         parl = ((fp / delta) / temp) / temp;
     }
 
-    // Upper bound u of (5.7): ‖(J·D⁻¹)ᵀf‖ / Δ.
+    // Upper bound u = ‖(J·D⁻¹)ᵀf‖ / Δ.
     for j in 0..n {
         let sum: f64 = (0..=j).map(|i| r[(i, j)] * qtb[i]).sum();
         wa1[j] = sum / diag[ipvt[j]];
@@ -616,7 +629,7 @@ fn lmpar(
 
         // Accept λ once ‖D·x‖ is within 10 % of Δ, or when the lower bound is
         // zero and φ has stopped decreasing from a negative value, or after
-        // ten tries (§5).
+        // ten tries, as in the paper.
         if fp.abs() <= P1 * delta
             || (parl == 0.0 && fp <= previous_fp && previous_fp < 0.0)
             || iter == 10
@@ -624,8 +637,8 @@ fn lmpar(
             break;
         }
 
-        // Newton correction φ(λ)/φ'(λ), from the factor S of [J; √λ·D]
-        // (5.5).
+        // Newton correction (φ/φ')·(‖D·x‖/Δ), from the factor S of
+        // [J; √λ·D], the update of Hebden's method.
         for j in 0..n {
             let l = ipvt[j];
             wa1[j] = diag[l] * (wa2[l] / dxnorm);
@@ -652,7 +665,7 @@ fn lmpar(
 }
 
 /// Solves `min ‖[R·Pᵀ; D]·x − [Qᵀb; 0]‖` given the pivoted QR of `J`
-/// (Moré 1978, §3, eq. 3.4–3.5).
+/// (Moré 1978, the structured linear least-squares problem).
 ///
 /// Givens rotations zero the rows of `D`, one at a time, against `R`
 /// (Golub & Van Loan, *Matrix Computations*, 4th ed., §5.1.8), giving the
@@ -813,7 +826,7 @@ mod tests {
     #[test]
     fn lmpar_step_respects_the_trust_region() {
         // For a radius much smaller than the Gauss–Newton step, ‖D·p‖ must
-        // come out within 10 % of Δ (Moré 1978, §5).
+        // come out within 10 % of Δ (Moré 1978).
         let mut j = DMatrix::from_row_slice(3, 2, &[1.0, 0.0, 0.0, 2.0, 1.0, 1.0]);
         let f = DVector::from_vec(vec![10.0, 20.0, 5.0]);
         let qr = qrfac(&mut j);
