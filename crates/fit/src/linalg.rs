@@ -90,7 +90,7 @@ pub struct LinearFit {
 /// fit minimises `Σ wᵢ(yᵢ − xᵢβ)²`.
 ///
 /// Method: Householder QR of the column-equilibrated design (Golub & Van
-/// Loan, *Matrix Computations*, 4th ed., §5.3), followed by iterative
+/// Loan, *Matrix Computations*, 4th ed., 2013, ch. 5), followed by iterative
 /// refinement of the augmented system `[I X; Xᵀ 0]·[r; β] = [y; 0]` (Björck,
 /// "Iterative refinement of linear least squares solutions I", BIT 7, 1967),
 /// with its residuals accumulated in twice the working precision by the
@@ -140,7 +140,7 @@ pub fn lstsq(
 
     // Multiplying each row by √wᵢ turns the weighted problem into an
     // ordinary one (Björck, *Numerical Methods for Least Squares Problems*,
-    // 1996, §4.4).
+    // 1996).
     let mut a = design.clone();
     let mut b = y.clone();
     if let Some(sw) = &sqrt_w {
@@ -647,8 +647,8 @@ struct Assembly<'a> {
 ///
 /// With `A = X·S⁻¹` and `β = S⁻¹·x`, `(XᵀX)⁻¹ = S⁻¹(AᵀA)⁻¹S⁻¹`; the
 /// covariance is `s²·(XᵀX)⁻¹` with `s² = RSS/(n − p)` (Draper & Smith,
-/// *Applied Regression Analysis*, 3rd ed., 1998, §5.2), and
-/// `R² = 1 − RSS/TSS` (ibid., §1.5).
+/// *Applied Regression Analysis*, 3rd ed., 1998), and
+/// `R² = 1 − RSS/TSS` (ibid.).
 fn assemble(parts: &Assembly<'_>) -> LinearFit {
     let p = parts.scale.len();
     let dof = parts.observations - p;
@@ -747,7 +747,7 @@ impl Equilibrated {
     /// `(AᵀA)⁻¹` of the equilibrated matrix, each column refined.
     ///
     /// The augmented system with right-hand side `[0; −eⱼ]` has solution
-    /// `x = (AᵀA)⁻¹eⱼ` and residual `r = −A·x` (Björck 1996, §2.9), so the
+    /// `x = (AᵀA)⁻¹eⱼ` and residual `r = −A·x` (Björck 1996), so the
     /// same refinement as for the coefficients applies and `AᵀA` is never
     /// formed.
     fn scaled_unit_covariance(&self) -> DMatrix<f64> {
@@ -785,7 +785,7 @@ impl Equilibrated {
     /// 2005, `Dot2`) and solves for the correction with the existing QR
     /// factors: `h = R⁻ᵀg`, `d = Q₁ᵀf`, `δx = R⁻¹(d − h)`,
     /// `δres = f + Q₁(h − d)` (Björck, BIT 7, 1967; Björck, *Numerical
-    /// Methods for Least Squares Problems*, 1996, §2.9). Because the defect
+    /// Methods for Least Squares Problems*, 1996). Because the defect
     /// of the residual is corrected too, this converges at a rate set by κ
     /// rather than κ², and so does not stall on large-residual problems.
     ///
@@ -863,7 +863,7 @@ fn residual(a: &DMatrix<f64>, b: &DVector<f64>, x: &DVector<f64>) -> DVector<f64
 ///
 /// A diagonal entry below `max(n, p)·ε·max|rⱼⱼ|` counts as zero, the usual
 /// numerical-rank threshold (Golub & Van Loan, *Matrix Computations*, 4th
-/// ed., §5.4.1); a condition number above `1/(max(n, p)·ε)` is treated the
+/// ed., 2013, ch. 5); a condition number above `1/(max(n, p)·ε)` is treated the
 /// same way, because the solution then has no correct digit.
 fn check_rank(r: &DMatrix<f64>, rows: usize) -> Result<f64, FitError> {
     let p = r.ncols();
@@ -879,14 +879,16 @@ fn check_rank(r: &DMatrix<f64>, rows: usize) -> Result<f64, FitError> {
     // Written so that a NaN condition number also counts as deficient.
     let well_conditioned = condition_number * tol < 1.0;
     if rank < p || !well_conditioned {
-        // Without pivoting, the first small diagonal entry marks the first
-        // column that the ones before it (nearly) span.
-        let column = (0..p)
+        // Without pivoting, the first negligible diagonal entry marks the
+        // first column that the ones before it (nearly) span; when none is
+        // negligible but the whole is too ill-conditioned, the smallest
+        // one is the best guess.
+        let smallest = (0..p)
             .min_by(|&i, &j| r[(i, i)].abs().total_cmp(&r[(j, j)].abs()))
             .unwrap_or(0);
         let column = (0..p)
             .find(|&k| r[(k, k)].abs() <= tol * diag_max)
-            .unwrap_or(column);
+            .unwrap_or(smallest);
         return Err(FitError::RankDeficient {
             column,
             rank: rank.min(p - 1),
@@ -995,7 +997,7 @@ fn total_sum_of_squares(
 /// A running sum of products in twice the working precision: the `Dot2`
 /// algorithm of Ogita, Rump & Oishi ("Accurate sum and dot product", SIAM J.
 /// Sci. Comput. 26(6), 2005), built from Knuth's error-free `TwoSum` (*The
-/// Art of Computer Programming* vol. 2, §4.2.2) and the fused multiply–add
+/// Art of Computer Programming* vol. 2, 1997) and the fused multiply–add
 /// form of `TwoProduct`. The result is as accurate as if computed in
 /// quadruple precision and then rounded, up to a factor of the condition
 /// number of the sum.

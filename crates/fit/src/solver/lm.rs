@@ -668,7 +668,7 @@ fn lmpar(
 /// (Moré 1978, the structured linear least-squares problem).
 ///
 /// Givens rotations zero the rows of `D`, one at a time, against `R`
-/// (Golub & Van Loan, *Matrix Computations*, 4th ed., §5.1.8), giving the
+/// (Golub & Van Loan, *Matrix Computations*, 4th ed., 2013, ch. 5), giving the
 /// triangular `S` with `[R; Pᵀ·D·P] = Q₂·S`; its diagonal goes to `sdiag`
 /// and its strict upper triangle, transposed, to the strict lower triangle
 /// of `r_work`. If `S` is singular the solution is a least-squares one.

@@ -94,7 +94,7 @@ impl<P: LeastSquaresProblem + ?Sized> CostFunction for ArgminProblem<'_, P> {
 
 /// Tolerances and budgets for [`solve`], with the meanings of MINPACK's
 /// `lmder` (Moré, Garbow & Hillstrom, *User Guide for MINPACK-1*, ANL-80-74,
-/// 1980, §2.3).
+/// 1980, ch. 2).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(default)]
 pub struct SolveOptions {
@@ -266,7 +266,7 @@ pub struct NonlinearFit {
 /// Runs [`LevenbergMarquardt`] under argmin's executor, then evaluates the
 /// Jacobian once more at the solution for the covariance
 /// `s²·(JᵀJ)⁻¹` with `s² = RSS/(m − n)` (Bates & Watts, *Nonlinear
-/// Regression Analysis and Its Applications*, 1988, §2.3.1). `(JᵀJ)⁻¹` comes
+/// Regression Analysis and Its Applications*, 1988, ch. 2). `(JᵀJ)⁻¹` comes
 /// from a QR of the column-equilibrated `J` with refined columns, never from
 /// inverting `JᵀJ`.
 ///
