@@ -44,8 +44,10 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod constants;
 pub mod error;
 pub mod linalg;
+pub mod models;
 pub mod solver;
 
 pub use error::FitError;

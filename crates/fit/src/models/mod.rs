@@ -1,0 +1,4 @@
+//! The published current–time laws Diffusor fits. Each states its equation, source and range of
+//! validity.
+
+pub mod planar;
