@@ -44,10 +44,19 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod cell;
 pub mod constants;
 pub mod error;
 pub mod linalg;
 pub mod models;
+pub mod planar;
+pub mod regression;
 pub mod solver;
+pub mod window;
 
 pub use error::FitError;
+
+/// A time in engineering notation for messages.
+pub(crate) fn fmt_s(t: f64) -> String {
+    diffusor_trace::format_si(t, "s", 3)
+}

@@ -1,0 +1,673 @@
+//! The Cottrell line: least squares of the current on a transformed time (t^-½ or the
+//! interval-averaged form), with or without an intercept, on windows of up to tens of millions
+//! of samples.
+//!
+//! The solve uses two-pass centred sums (the numerically stable way to fit one regressor:
+//! T. F. Chan, G. H. Golub & R. J. LeVeque, Amer. Statist. 37 (1983) 242), split across threads
+//! for long windows; the tests check it against the QR solve of [`crate::linalg::lstsq`] on NIST
+//! StRD Norris and on Cottrell data.
+//!
+//! The covariance is a sandwich estimate that stays honest for design weights and for
+//! autocorrelated noise: with residual variance s², weights w and design rows zᵢ = wᵢ·[1, x̃ᵢ],
+//! `Cov = s²·A⁻¹·M·A⁻¹`, A = Σ wᵢ[1, x̃ᵢ][1, x̃ᵢ]ᵀ, M = Σᵢ Σⱼ zᵢ zⱼᵀ φ^|i−j|, the variance of a
+//! linear estimator under correlated errors (e.g. G. E. P. Box, G. M. Jenkins & G. C. Reinsel,
+//! *Time Series Analysis*, ch. 3). The noise is modelled as white noise plus a first-order
+//! autoregressive (AR(1)) part, whose autocorrelation is ρ(0) = 1, ρ(k) = c·φ^k for k ≥ 1
+//! (c is the AR part's share of the variance); c and φ come from the residuals' autocorrelation
+//! at lags 1–10 (ln ρ(k) against k). Then M = (1 − c)·M₀ + c·M_φ, where M_φ is summed in one pass
+//! by the recursion hᵢ = φ·(hᵢ₋₁ + zᵢ₋₁). Pure AR(1) noise gives c = 1, white noise c = 0.
+
+use serde::Serialize;
+
+use crate::FitError;
+
+/// How time is turned into the regressor.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind")]
+pub enum Regressor {
+    /// x = t^-½: the Cottrell current at the sampling instant.
+    InverseSqrt,
+    /// x = 2(√tᵢ − √tᵢ₋₁)/(tᵢ − tᵢ₋₁): the mean Cottrell current over each sampling interval,
+    /// for instruments that report interval averages. `t_before_s` is the time of the sample
+    /// before the window's first one (0 when the first sample follows the step).
+    IntervalAverage {
+        /// Time of the sample before the window, in s.
+        t_before_s: f64,
+    },
+}
+
+/// How points are weighted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Weighting {
+    /// Every point counts the same.
+    #[default]
+    Ordinary,
+    /// Each point is weighted by the share of ln t it covers, (tᵢ₊₁ − tᵢ₋₁)/(2tᵢ), so that every
+    /// decade of time counts equally and the many long-time points of a uniformly sampled trace
+    /// do not dominate. The covariance is the sandwich form, valid for such design weights.
+    LogTime,
+}
+
+impl Weighting {
+    /// A sentence stating the scheme, for results and reports.
+    pub fn description(self) -> &'static str {
+        match self {
+            Weighting::Ordinary => "ordinary least squares: every point weighted equally",
+            Weighting::LogTime => {
+                "log-time weights: each point weighted by the share of ln t it covers, (t[i+1] − t[i−1])/(2·t[i]), so each decade of time counts equally; sandwich covariance"
+            }
+        }
+    }
+}
+
+/// The fitted line and its diagnostics.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LineFit {
+    /// Slope S in A·s^½ (current per unit of the regressor).
+    pub slope: f64,
+    /// Intercept b in A, when fitted.
+    pub intercept: Option<f64>,
+    /// Covariance of (slope, intercept) or of (slope) alone, corrected for autocorrelation.
+    pub covariance: Vec<Vec<f64>>,
+    /// Covariance as plain least squares would give it (no autocorrelation correction).
+    pub covariance_uncorrected: Vec<Vec<f64>>,
+    /// Residual standard deviation in A (unweighted residuals, n − p degrees of freedom).
+    pub residual_sd: f64,
+    /// Points in the fit.
+    pub points: usize,
+    /// Parameters fitted.
+    pub parameters: usize,
+    /// Coefficient of determination (weighted, centred when there is an intercept).
+    pub r_squared: f64,
+    /// Lag-1 autocorrelation of the residuals.
+    pub lag1_autocorrelation: f64,
+    /// Durbin–Watson statistic of the residuals (J. Durbin & G. S. Watson, Biometrika 37 (1950)
+    /// 409); near 2 for independent noise, towards 0 for positive autocorrelation.
+    pub durbin_watson: f64,
+    /// Wald–Wolfowitz runs-test z of the residual signs (A. Wald & J. Wolfowitz, Ann. Math.
+    /// Statist. 11 (1940) 147); strongly negative means too few sign changes: structure.
+    pub runs_z: f64,
+    /// The noise model used in the covariance.
+    pub noise: NoiseModel,
+    /// Effective number of independent points, n/(1 + 2·Σ ρ(k)) = n/(1 + 2cφ/(1 − φ)) (the
+    /// effective sample size of a mean of correlated data; G. V. Bayley & J. M. Hammersley,
+    /// J. R. Statist. Soc. Suppl. 8 (1946) 184).
+    pub effective_points: f64,
+    /// Degrees of freedom for Student's t: effective points minus parameters (at least 1).
+    pub degrees_of_freedom: f64,
+}
+
+impl LineFit {
+    /// Standard error of the slope (autocorrelation-corrected), in A·s^½.
+    pub fn slope_std_error(&self) -> f64 {
+        self.covariance[0][0].sqrt()
+    }
+
+    /// Standard error of the intercept (autocorrelation-corrected), in A.
+    pub fn intercept_std_error(&self) -> Option<f64> {
+        self.intercept.map(|_| self.covariance[1][1].sqrt())
+    }
+}
+
+/// Correlation of the noise: white plus AR(1), ρ(k) = c·φ^k for lags k ≥ 1.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct NoiseModel {
+    /// Share of the variance in the correlated (AR(1)) part, 0–1.
+    pub c: f64,
+    /// AR(1) coefficient of that part, 0–0.999.
+    pub phi: f64,
+}
+
+impl NoiseModel {
+    /// Independent noise.
+    pub const WHITE: NoiseModel = NoiseModel { c: 0.0, phi: 0.0 };
+
+    /// Estimates c and φ from autocorrelations ρ(1..) of `n` residuals: a least-squares line
+    /// through ln ρ(k) for the leading lags whose ρ(k) exceeds 2/√n (significant at about 95 %);
+    /// one such lag alone gives pure AR(1) with φ = ρ(1); none gives white noise.
+    pub fn from_autocorrelation(rho: &[f64], n: usize) -> NoiseModel {
+        let limit = 2.0 / (n as f64).sqrt();
+        let lags: Vec<(f64, f64)> = rho
+            .iter()
+            .enumerate()
+            .take_while(|(_, r)| **r > limit)
+            .map(|(k, r)| ((k + 1) as f64, r.ln()))
+            .collect();
+        match lags.len() {
+            0 => NoiseModel::WHITE,
+            1 => NoiseModel {
+                c: 1.0,
+                phi: rho[0].clamp(0.0, 0.999),
+            },
+            m => {
+                let mk = lags.iter().map(|l| l.0).sum::<f64>() / m as f64;
+                let ml = lags.iter().map(|l| l.1).sum::<f64>() / m as f64;
+                let sxx: f64 = lags.iter().map(|l| (l.0 - mk).powi(2)).sum();
+                let sxy: f64 = lags.iter().map(|l| (l.0 - mk) * (l.1 - ml)).sum();
+                let phi = (sxy / sxx).exp().clamp(1e-6, 0.999);
+                let c = ((ml - mk * (sxy / sxx)).exp()).clamp(0.0, 1.0);
+                NoiseModel { c, phi }
+            }
+        }
+    }
+
+    /// Estimates σ², c and φ from the variogram of a residual series, γ(k) = ½·mean((rᵢ₊ₖ − rᵢ)²)
+    /// = σ²·(1 − ρ(k)). Differences at short lags ignore the slow misfit a provisional model
+    /// leaves (and that a regression would absorb), so this sees a slowly decaying correlation
+    /// that the autocorrelation of a short regression's residuals underestimates. σ² is taken
+    /// as the mean of γ over the last fifth of lags up to `max_lag`; ρ(k) = 1 − γ(k)/σ² is then
+    /// fitted as c·φ^k. Returns (σ, model).
+    pub fn from_variogram(residuals: &[f64], max_lag: usize) -> (f64, NoiseModel) {
+        let n = residuals.len();
+        let max_lag = max_lag.min(n / 4).max(2);
+        let gamma: Vec<f64> = (1..=max_lag)
+            .map(|k| {
+                let m = n - k;
+                (0..m).map(|i| (residuals[i + k] - residuals[i]).powi(2)).sum::<f64>()
+                    / (2.0 * m as f64)
+            })
+            .collect();
+        let tail = (max_lag / 5).max(1);
+        let sigma2 = gamma[max_lag - tail..].iter().sum::<f64>() / tail as f64;
+        if !(sigma2 > 0.0) {
+            return (0.0, NoiseModel::WHITE);
+        }
+        let rho: Vec<f64> = gamma.iter().map(|g| 1.0 - g / sigma2).collect();
+        (sigma2.sqrt(), NoiseModel::from_autocorrelation(&rho, n))
+    }
+
+    /// The variance of the mean of `k` consecutive samples relative to σ²/k:
+    /// 1 + 2·Σⱼ (1 − j/k)·c·φ^j.
+    pub fn mean_variance_factor(&self, k: usize) -> f64 {
+        let (c, phi) = (self.c, self.phi);
+        if c == 0.0 || phi == 0.0 || k < 2 {
+            return 1.0;
+        }
+        let kf = k as f64;
+        let geometric = phi / (1.0 - phi) - phi * (1.0 - phi.powf(kf)) / (kf * (1.0 - phi).powi(2));
+        1.0 + 2.0 * c * geometric
+    }
+
+    /// Effective points among `n`: n/(1 + 2cφ/(1 − φ)).
+    pub fn effective_points(&self, n: usize) -> f64 {
+        n as f64 / (1.0 + 2.0 * self.c * self.phi / (1.0 - self.phi))
+    }
+}
+
+/// Lags of the residual autocorrelation used for the noise model.
+const LAGS: usize = 10;
+
+/// The points of a window: times (s, after the step), currents (A, faradaic sign positive).
+#[derive(Debug, Clone, Copy)]
+pub struct Window<'a> {
+    /// Times in s, strictly increasing and positive.
+    pub time_s: &'a [f64],
+    /// Currents in A.
+    pub current_a: &'a [f64],
+    /// Time of the sample after the window, if any (for the last log-time weight), in s.
+    pub t_after_s: Option<f64>,
+    /// Time of the sample before the window, if any, in s.
+    pub t_before_s: Option<f64>,
+    /// Time origin subtracted from every time (the refined step onset), in s.
+    pub t0_s: f64,
+}
+
+/// Below this many points the fit runs on one thread.
+const PARALLEL_MIN: usize = 200_000;
+
+#[inline]
+fn regressor(r: Regressor, t: &[f64], t0: f64, i: usize) -> f64 {
+    match r {
+        Regressor::InverseSqrt => 1.0 / (t[i] - t0).sqrt(),
+        Regressor::IntervalAverage { t_before_s } => {
+            let prev = if i == 0 { t_before_s } else { t[i - 1] };
+            let (a, b) = ((prev - t0).max(0.0).sqrt(), (t[i] - t0).sqrt());
+            // 2(√t − √t₋)/(t − t₋) = 2/(√t + √t₋), which does not cancel.
+            2.0 / (a + b)
+        }
+    }
+}
+
+#[inline]
+fn weight(w: Weighting, win: &Window<'_>, i: usize) -> f64 {
+    match w {
+        Weighting::Ordinary => 1.0,
+        Weighting::LogTime => {
+            let t = win.time_s;
+            let n = t.len();
+            let before = if i == 0 { win.t_before_s } else { Some(t[i - 1]) };
+            let after = if i + 1 == n { win.t_after_s } else { Some(t[i + 1]) };
+            let ti = t[i] - win.t0_s;
+            match (before, after) {
+                (Some(b), Some(a)) => (a - b) / (2.0 * ti),
+                (None, Some(a)) => (a - t[i]) / ti,
+                (Some(b), None) => (t[i] - b) / ti,
+                (None, None) => 1.0,
+            }
+        }
+    }
+}
+
+/// Runs `f` on up to `parts` contiguous index ranges of `0..n` on scoped threads, in order.
+fn chunked<T: Send>(n: usize, f: impl Fn(usize, usize) -> T + Sync) -> Vec<T> {
+    let parts = if n < PARALLEL_MIN {
+        1
+    } else {
+        std::thread::available_parallelism().map_or(1, usize::from).clamp(1, 8)
+    };
+    if parts == 1 {
+        return vec![f(0, n)];
+    }
+    let bounds: Vec<(usize, usize)> = (0..parts)
+        .map(|k| (n * k / parts, n * (k + 1) / parts))
+        .collect();
+    std::thread::scope(|scope| {
+        let f = &f;
+        let handles: Vec<_> = bounds[1..]
+            .iter()
+            .map(|&(a, b)| scope.spawn(move || f(a, b)))
+            .collect();
+        let mut out = vec![f(bounds[0].0, bounds[0].1)];
+        for h in handles {
+            match h.join() {
+                Ok(v) => out.push(v),
+                Err(p) => std::panic::resume_unwind(p),
+            }
+        }
+        out
+    })
+}
+
+/// Fits `I = S·x + b` (or `I = S·x`) over the window.
+pub fn fit_line(
+    win: &Window<'_>,
+    regressor_kind: Regressor,
+    weighting: Weighting,
+    intercept: bool,
+) -> Result<LineFit, FitError> {
+    let t = win.time_s;
+    let y = win.current_a;
+    let n = t.len();
+    if y.len() != n {
+        return Err(FitError::DimensionMismatch {
+            what: "current",
+            found: y.len(),
+            expected: n,
+        });
+    }
+    let p = if intercept { 2 } else { 1 };
+    if n <= p + 1 {
+        return Err(FitError::TooFewPoints {
+            points: n,
+            parameters: p,
+        });
+    }
+    let t0 = win.t0_s;
+    if let Some(i) = (0..n).find(|&i| !(t[i] > t0 && t[i].is_finite()) || !y[i].is_finite()) {
+        return Err(FitError::NonFiniteInput {
+            what: "window (time must be positive, current finite)",
+            row: i,
+        });
+    }
+    let x_at = |i| regressor(regressor_kind, t, t0, i);
+    let w_at = |i| weight(weighting, win, i);
+
+    // Pass 1: weighted means.
+    let sums = chunked(n, |a, b| {
+        let (mut sw, mut swx, mut swy) = (0.0, 0.0, 0.0);
+        for i in a..b {
+            let w = w_at(i);
+            sw += w;
+            swx += w * x_at(i);
+            swy += w * y[i];
+        }
+        [sw, swx, swy]
+    });
+    let [sw, swx, swy] = sum_arrays(&sums);
+    if !(sw > 0.0) {
+        return Err(FitError::InvalidWeight { row: 0, weight: sw });
+    }
+    let (xm, ym) = if intercept { (swx / sw, swy / sw) } else { (0.0, 0.0) };
+
+    // Pass 2: centred (or, without intercept, raw) second moments.
+    let moments = chunked(n, |a, b| {
+        let mut m = [0.0; 6];
+        for i in a..b {
+            let w = w_at(i);
+            let dx = x_at(i) - xm;
+            let dy = y[i] - ym;
+            m[0] += w * dx * dx;
+            m[1] += w * dx * dy;
+            m[2] += w * dy * dy;
+            m[3] += w * w;
+            m[4] += w * w * dx;
+            m[5] += w * w * dx * dx;
+        }
+        m
+    });
+    let [sxx, sxy, syy, _sww, _swwx, _swwxx] = sum_arrays(&moments);
+    if !(sxx > 0.0) {
+        return Err(FitError::RankDeficient {
+            column: 0,
+            rank: p - 1,
+            parameters: p,
+            condition_number: f64::INFINITY,
+        });
+    }
+    let slope = sxy / sxx;
+    let icept = intercept.then(|| ym - slope * xm);
+
+    // Pass 3: residual diagnostics.
+    let resid = |i: usize| y[i] - icept.unwrap_or(0.0) - slope * x_at(i);
+    let diag = chunked(n, |a, b| {
+        let mut d = ResidualSums::default();
+        let mut prev = if a > 0 { Some(resid(a - 1)) } else { None };
+        // The last LAGS residuals, newest at [i % LAGS].
+        let mut ring = [0.0; LAGS];
+        for (k, slot) in ring.iter_mut().enumerate().take(a.min(LAGS)) {
+            // Residuals a−1−k for the first lags of this part.
+            *slot = resid(a - 1 - k);
+        }
+        // Rotate so that ring[(i − 1 − k) % LAGS] holds residual i − 1 − k.
+        let mut ordered = [0.0; LAGS];
+        for k in 0..a.min(LAGS) {
+            ordered[(a - 1 - k) % LAGS] = ring[k];
+        }
+        let mut ring = ordered;
+        for i in a..b {
+            let r = resid(i);
+            for k in 1..=LAGS.min(i) {
+                d.lags[k - 1] += r * ring[(i - k) % LAGS];
+            }
+            ring[i % LAGS] = r;
+            d.rr += r * r;
+            d.wrr += w_at(i) * r * r;
+            if let Some(q) = prev {
+                d.lag += r * q;
+                d.diff += (r - q) * (r - q);
+                if r != 0.0 && q != 0.0 && (r > 0.0) != (q > 0.0) {
+                    d.changes += 1;
+                }
+            }
+            if r > 0.0 {
+                d.pos += 1;
+            } else if r < 0.0 {
+                d.neg += 1;
+            }
+            prev = Some(r);
+        }
+        d
+    });
+    let d = diag
+        .iter()
+        .fold(ResidualSums::default(), |acc, x| acc.add(x));
+    let dof_plain = (n - p) as f64;
+    let s2 = d.rr / dof_plain;
+    let rho = if d.rr > 0.0 { d.lag / d.rr } else { 0.0 };
+    let dw = if d.rr > 0.0 { d.diff / d.rr } else { f64::NAN };
+    let runs_z = runs_test_z(d.changes + 1, d.pos, d.neg);
+    let r_squared = if intercept {
+        1.0 - d.wrr / syy
+    } else {
+        1.0 - d.wrr / syy.max(f64::MIN_POSITIVE)
+    };
+
+    // Covariance: sandwich with the AR(1) middle, once with φ = 0 and once with φ̂.
+    let rho_k: Vec<f64> = if d.rr > 0.0 {
+        d.lags.iter().map(|l| l / d.rr).collect()
+    } else {
+        vec![0.0; LAGS]
+    };
+    let noise = NoiseModel::from_autocorrelation(&rho_k, n);
+    let phi = noise.phi;
+    let middle = |phi: f64| -> [f64; 3] {
+        // z = w·[1, x̃] (with intercept) or w·[x] (without); sum z zᵀ φ^|i−j|.
+        let parts = chunked(n, |a, b| {
+            // Local sums with h starting at zero, plus G = Σ zᵢ φ^(i−a), which says what a
+            // nonzero h carried in from the previous part adds.
+            let mut m = [0.0; 3];
+            let mut h = [0.0; 2];
+            let mut g = [0.0; 2];
+            let mut decay = 1.0;
+            let mut prev_z = [0.0; 2];
+            for i in a..b {
+                let w = w_at(i);
+                let z = if intercept {
+                    [w, w * (x_at(i) - xm)]
+                } else {
+                    [w * x_at(i), 0.0]
+                };
+                if i > a {
+                    h = [phi * (h[0] + prev_z[0]), phi * (h[1] + prev_z[1])];
+                }
+                m[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
+                m[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
+                m[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
+                g[0] += z[0] * decay;
+                g[1] += z[1] * decay;
+                decay *= phi;
+                prev_z = z;
+            }
+            // The local h handed to the next part, and φ^len for the carried-in one.
+            let h_end = [phi * (h[0] + prev_z[0]), phi * (h[1] + prev_z[1])];
+            (m, g, h_end, decay)
+        });
+        // Combine in order: a carried-in h (= c) adds G·cᵀ + c·Gᵀ to the middle.
+        let mut total = [0.0; 3];
+        let mut carry = [0.0; 2];
+        for (m, g, h_end, pow_len) in &parts {
+            total[0] += m[0] + 2.0 * carry[0] * g[0];
+            total[1] += m[1] + carry[0] * g[1] + carry[1] * g[0];
+            total[2] += m[2] + 2.0 * carry[1] * g[1];
+            carry = [carry[0] * pow_len + h_end[0], carry[1] * pow_len + h_end[1]];
+        }
+        total
+    };
+    let cov_from = |m: [f64; 3]| -> Vec<Vec<f64>> {
+        if intercept {
+            // Centred basis: A = diag(sw, sxx).
+            let v_ac = s2 * m[0] / (sw * sw);
+            let c_ab = s2 * m[1] / (sw * sxx);
+            let v_b = s2 * m[2] / (sxx * sxx);
+            // Back to (slope, intercept) with intercept = a_c − slope·x̄.
+            let v_a = v_ac + xm * xm * v_b - 2.0 * xm * c_ab;
+            let c_sa = c_ab - xm * v_b;
+            vec![vec![v_b, c_sa], vec![c_sa, v_a]]
+        } else {
+            vec![vec![s2 * m[0] / (sxx * sxx)]]
+        }
+    };
+    let m0 = middle(0.0);
+    let covariance_uncorrected = cov_from(m0);
+    let covariance = if noise.c > 0.0 && phi > 0.0 {
+        let mp = middle(phi);
+        let c = noise.c;
+        cov_from([
+            (1.0 - c) * m0[0] + c * mp[0],
+            (1.0 - c) * m0[1] + c * mp[1],
+            (1.0 - c) * m0[2] + c * mp[2],
+        ])
+    } else {
+        covariance_uncorrected.clone()
+    };
+    let effective_points = noise.effective_points(n);
+    Ok(LineFit {
+        slope,
+        intercept: icept,
+        covariance,
+        covariance_uncorrected,
+        residual_sd: s2.sqrt(),
+        points: n,
+        parameters: p,
+        r_squared,
+        lag1_autocorrelation: rho,
+        durbin_watson: dw,
+        runs_z,
+        noise,
+        effective_points,
+        degrees_of_freedom: (effective_points - p as f64).max(1.0),
+    })
+}
+
+#[derive(Debug, Default, Clone, Copy)]
+struct ResidualSums {
+    lags: [f64; LAGS],
+    rr: f64,
+    wrr: f64,
+    lag: f64,
+    diff: f64,
+    changes: u64,
+    pos: u64,
+    neg: u64,
+}
+
+impl ResidualSums {
+    fn add(self, o: &ResidualSums) -> ResidualSums {
+        let mut lags = self.lags;
+        for (l, v) in lags.iter_mut().zip(&o.lags) {
+            *l += v;
+        }
+        ResidualSums {
+            lags,
+            rr: self.rr + o.rr,
+            wrr: self.wrr + o.wrr,
+            lag: self.lag + o.lag,
+            diff: self.diff + o.diff,
+            changes: self.changes + o.changes,
+            pos: self.pos + o.pos,
+            neg: self.neg + o.neg,
+        }
+    }
+}
+
+fn sum_arrays<const K: usize>(parts: &[[f64; K]]) -> [f64; K] {
+    let mut out = [0.0; K];
+    for p in parts {
+        for (o, v) in out.iter_mut().zip(p) {
+            *o += v;
+        }
+    }
+    out
+}
+
+/// z of the Wald–Wolfowitz runs test for `runs` runs of `pos` positive and `neg` negative signs.
+fn runs_test_z(runs: u64, pos: u64, neg: u64) -> f64 {
+    let (np, nn) = (pos as f64, neg as f64);
+    let total = np + nn;
+    if np < 1.0 || nn < 1.0 || total < 3.0 {
+        return f64::NAN;
+    }
+    let mean = 2.0 * np * nn / total + 1.0;
+    let var = 2.0 * np * nn * (2.0 * np * nn - total) / (total * total * (total - 1.0));
+    if var <= 0.0 {
+        return f64::NAN;
+    }
+    (runs as f64 - mean) / var.sqrt()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::linalg::lstsq;
+    use nalgebra::{DMatrix, DVector};
+
+    fn window<'a>(t: &'a [f64], i: &'a [f64]) -> Window<'a> {
+        Window {
+            time_s: t,
+            current_a: i,
+            t_after_s: None,
+            t_before_s: None,
+            t0_s: 0.0,
+        }
+    }
+
+    #[test]
+    fn matches_qr_on_cottrell_data() {
+        let t: Vec<f64> = (1..=2000).map(|k| k as f64 * 1e-3).collect();
+        let y: Vec<f64> = t
+            .iter()
+            .enumerate()
+            .map(|(k, t)| 1e-5 / t.sqrt() + 2e-8 + 1e-8 * ((k * 7919 % 13) as f64 - 6.0))
+            .collect();
+        let fit = fit_line(&window(&t, &y), Regressor::InverseSqrt, Weighting::Ordinary, true)
+            .expect("fit");
+        let design = DMatrix::from_fn(t.len(), 2, |i, j| if j == 0 { 1.0 / t[i].sqrt() } else { 1.0 });
+        let qr = lstsq(&design, &DVector::from_vec(y.clone()), None).expect("qr");
+        assert!((fit.slope - qr.coefficients[0]).abs() / qr.coefficients[0].abs() < 1e-12);
+        assert!((fit.intercept.expect("b") - qr.coefficients[1]).abs() < 1e-18);
+        let se = fit.covariance_uncorrected[0][0].sqrt();
+        assert!((se - qr.standard_errors[0]).abs() / qr.standard_errors[0] < 1e-9);
+        let se_b = fit.covariance_uncorrected[1][1].sqrt();
+        assert!((se_b - qr.standard_errors[1]).abs() / qr.standard_errors[1] < 1e-9);
+    }
+
+    #[test]
+    fn threads_give_the_same_answer_as_one() {
+        // Long enough to split; compare with the AR(1) middle summed directly in one pass.
+        let n = 450_001;
+        let t: Vec<f64> = (1..=n).map(|k| k as f64 * 1e-5).collect();
+        let mut state = 0.0f64;
+        let y: Vec<f64> = t
+            .iter()
+            .enumerate()
+            .map(|(k, t)| {
+                state = 0.7 * state + 1e-9 * (((k * 2_654_435_761) % 1000) as f64 / 500.0 - 1.0);
+                3e-6 / t.sqrt() + state
+            })
+            .collect();
+        let fit = fit_line(&window(&t, &y), Regressor::InverseSqrt, Weighting::LogTime, true)
+            .expect("fit");
+        // Direct O(n) evaluation of the middle matrix on one thread.
+        let w = |i: usize| weight(Weighting::LogTime, &window(&t, &y), i);
+        let x = |i: usize| 1.0 / t[i].sqrt();
+        let sw: f64 = (0..n).map(w).sum();
+        let xm = (0..n).map(|i| w(i) * x(i)).sum::<f64>() / sw;
+        let phi = fit.noise.phi;
+        let c = fit.noise.c;
+        // The hashed innovations are themselves anticorrelated, so φ̂ is well below 0.7.
+        assert!(phi > 0.2 && c > 0.0, "{phi} {c}");
+        let (mut h, mut m2, mut prev) = (0.0, 0.0, 0.0);
+        for i in 0..n {
+            let z = w(i) * (x(i) - xm);
+            if i > 0 {
+                h = phi * (h + prev);
+            }
+            m2 += z * z + 2.0 * z * h;
+            prev = z;
+        }
+        let sxx: f64 = (0..n).map(|i| w(i) * (x(i) - xm).powi(2)).sum();
+        let m0: f64 = (0..n).map(|i| (w(i) * (x(i) - xm)).powi(2)).sum();
+        let s2 = fit.residual_sd.powi(2);
+        let v_b = s2 * ((1.0 - c) * m0 + c * m2) / (sxx * sxx);
+        assert!((fit.covariance[0][0] - v_b).abs() / v_b < 1e-8, "{} vs {v_b}", fit.covariance[0][0]);
+    }
+
+    #[test]
+    fn interval_average_regressor_is_the_mean_current() {
+        // The mean of t^-½ over (a, b) is 2(√b − √a)/(b − a).
+        let t = [0.5, 1.0];
+        let x = regressor(Regressor::IntervalAverage { t_before_s: 0.0 }, &t, 0.0, 1);
+        assert!((x - 2.0 * (1.0f64.sqrt() - 0.5f64.sqrt()) / 0.5).abs() < 1e-15);
+        let x0 = regressor(Regressor::IntervalAverage { t_before_s: 0.0 }, &t, 0.0, 0);
+        assert!((x0 - 2.0 / 0.5f64.sqrt()).abs() < 1e-15);
+    }
+
+    #[test]
+    fn noise_model_from_white_plus_ar1_autocorrelation() {
+        // ρ(k) = 0.4·0.9^k exactly: the line through ln ρ recovers c and φ.
+        let rho: Vec<f64> = (1..=10).map(|k| 0.4 * 0.9f64.powi(k)).collect();
+        let m = NoiseModel::from_autocorrelation(&rho, 10_000);
+        assert!((m.phi - 0.9).abs() < 1e-12 && (m.c - 0.4).abs() < 1e-12, "{m:?}");
+        // The variance of a mean of k: for k = 2 it is 1 + ρ(1) by definition.
+        assert!((m.mean_variance_factor(2) - (1.0 + 0.4 * 0.9)).abs() < 1e-12);
+        assert_eq!(NoiseModel::from_autocorrelation(&[0.001; 10], 10_000), NoiseModel::WHITE);
+    }
+
+    #[test]
+    fn runs_test_of_alternating_and_blocked_signs() {
+        // 10 alternating signs: 10 runs against an expected 6, z > 0; two blocks: 2 runs, z < 0.
+        assert!(runs_test_z(10, 5, 5) > 2.0);
+        assert!(runs_test_z(2, 5, 5) < -2.5);
+    }
+}

@@ -1,0 +1,456 @@
+//! The fitting window: where the double-layer charging has decayed (lower bound) and before
+//! natural convection or edge diffusion bends the transient (upper bound), each bound with the
+//! reason it sits where it does.
+
+use nalgebra::DVector;
+use serde::Serialize;
+
+use crate::models::planar::CottrellCharging;
+use crate::regression::NoiseModel;
+use crate::solver::{SolveOptions, solve};
+
+/// A bound chosen automatically or given.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Default)]
+#[serde(rename_all = "snake_case", tag = "kind", content = "s")]
+pub enum BoundChoice {
+    /// Found by the rules below.
+    #[default]
+    Auto,
+    /// Given, in s after the step.
+    At(f64),
+}
+
+/// The rules for automatic bounds.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WindowOptions {
+    /// Lower bound.
+    pub lo: BoundChoice,
+    /// Upper bound.
+    pub hi: BoundChoice,
+    /// The window starts at k·τ after the step, τ = Ru·Cdl. Default 5; 5–10 τ is common
+    /// practice, with no single source.
+    pub k_tau: f64,
+    /// The window also starts no earlier than where the charging current is below this
+    /// fraction of the faradaic current (default 0.01).
+    pub charging_fraction: f64,
+    /// Instrument rise time in s, if known: the window starts no earlier than k times it.
+    pub rise_time_s: Option<f64>,
+    /// Uncompensated resistance in Ω, if known (with `cdl_f`, gives τ without estimating it).
+    pub ru_ohm: Option<f64>,
+    /// Double-layer capacitance in F, if known.
+    pub cdl_f: Option<f64>,
+    /// The window ends where the edge share √(πDt)/r of a disk reaches this (default 0.1).
+    pub edge_share_limit: f64,
+    /// z above which a log-time bin of I·√t counts as departing from the plateau (default 3).
+    pub departure_z: f64,
+    /// Fewest points a window may hold (default 20).
+    pub min_points: usize,
+}
+
+impl Default for WindowOptions {
+    fn default() -> Self {
+        WindowOptions {
+            lo: BoundChoice::Auto,
+            hi: BoundChoice::Auto,
+            k_tau: 5.0,
+            charging_fraction: 0.01,
+            rise_time_s: None,
+            ru_ohm: None,
+            cdl_f: None,
+            edge_share_limit: 0.1,
+            departure_z: 3.0,
+            min_points: 20,
+        }
+    }
+}
+
+/// Why a bound is where it is.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "rule")]
+pub enum BoundReason {
+    /// Given by the user.
+    Given,
+    /// k·τ after the step, τ = Ru·Cdl estimated from the early transient or entered.
+    ChargingTime {
+        /// τ in s.
+        tau_s: f64,
+        /// The multiple k.
+        k: f64,
+    },
+    /// Where the fitted charging current falls below a fraction of the faradaic current.
+    ChargingFraction {
+        /// The fraction.
+        fraction: f64,
+    },
+    /// After the leading points whose excess over the Cottrell line is significant (τ itself
+    /// could not be estimated, usually because it is shorter than the sampling interval).
+    ChargingExcess {
+        /// Leading points excluded.
+        points: usize,
+    },
+    /// k times the instrument rise time.
+    RiseTime {
+        /// Rise time in s.
+        rise_time_s: f64,
+        /// The multiple k.
+        k: f64,
+    },
+    /// The first sample after the step (no charging was detected).
+    FirstSample,
+    /// Before the bin where I·√t rises above its plateau: natural convection.
+    Convection {
+        /// Onset in s.
+        onset_s: f64,
+        /// z of the first departing bin.
+        z: f64,
+    },
+    /// Before the bin where I·√t falls below its plateau (depletion or slow kinetics, not
+    /// convection).
+    FallsBelowPlateau {
+        /// Where it starts, in s.
+        onset_s: f64,
+        /// z of the first departing bin.
+        z: f64,
+    },
+    /// Where the edge share √(πDt)/r reaches the limit.
+    EdgeDiffusion {
+        /// The limit.
+        share: f64,
+        /// Radius used, in m.
+        radius_m: f64,
+    },
+    /// The end of the data.
+    EndOfData,
+}
+
+impl BoundReason {
+    /// A plain-language sentence.
+    pub fn describe(&self) -> String {
+        match self {
+            BoundReason::Given => "set by the user".to_owned(),
+            BoundReason::ChargingTime { tau_s, k } => format!(
+                "{k} × the charging time constant τ = Ru·Cdl = {}",
+                crate::fmt_s(*tau_s)
+            ),
+            BoundReason::ChargingFraction { fraction } => format!(
+                "where the fitted charging current falls below {} % of the faradaic current",
+                fraction * 100.0
+            ),
+            BoundReason::ChargingExcess { points } => format!(
+                "after the first {points} points, whose current exceeds the Cottrell line significantly (charging; τ not resolvable at this sampling rate)"
+            ),
+            BoundReason::RiseTime { rise_time_s, k } => format!(
+                "{k} × the instrument rise time {}",
+                crate::fmt_s(*rise_time_s)
+            ),
+            BoundReason::FirstSample => {
+                "the first sample after the step (no charging current detected)".to_owned()
+            }
+            BoundReason::Convection { onset_s, z } => format!(
+                "before natural convection: I·√t rises above its plateau from {} (z = {z:.1})",
+                crate::fmt_s(*onset_s)
+            ),
+            BoundReason::FallsBelowPlateau { onset_s, z } => format!(
+                "before I·√t falls below its plateau from {} (z = {z:.1}); not convection — depletion, a thin layer or kinetics",
+                crate::fmt_s(*onset_s)
+            ),
+            BoundReason::EdgeDiffusion { share, radius_m } => format!(
+                "where edge diffusion reaches {} % of the current (√(πDt)/r with r = {})",
+                share * 100.0,
+                diffusor_trace::format_si(*radius_m, "m", 3)
+            ),
+            BoundReason::EndOfData => "the end of the data".to_owned(),
+        }
+    }
+}
+
+/// One bound as decided.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Bound {
+    /// Time in s after the step.
+    pub time_s: f64,
+    /// Whether it was found automatically.
+    pub automatic: bool,
+    /// Why it is there.
+    pub reason: BoundReason,
+    /// The plain-language reason.
+    pub description: String,
+}
+
+impl Bound {
+    pub(crate) fn new(time_s: f64, automatic: bool, reason: BoundReason) -> Bound {
+        Bound {
+            time_s,
+            automatic,
+            description: reason.describe(),
+            reason,
+        }
+    }
+}
+
+/// The double-layer charging as estimated.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Charging {
+    /// τ = Ru·Cdl in s.
+    pub tau_s: f64,
+    /// Standard error of τ in s, when fitted.
+    pub tau_std_error_s: Option<f64>,
+    /// Charging current at t = 0, ΔE/Ru, in A, when fitted.
+    pub amplitude_a: Option<f64>,
+    /// Whether τ was fitted (exponential plus Cottrell on the early transient) or entered.
+    pub fitted: bool,
+    /// Points used in the fit.
+    pub points: usize,
+}
+
+/// Fits exponential plus Cottrell to the first points; `None` when τ is not resolved (the
+/// amplitude or τ not significant at 3 standard errors, or the fit fails).
+pub(crate) fn estimate_charging(
+    time_s: &[f64],
+    current_a: &[f64],
+    slope: f64,
+    intercept: f64,
+) -> Option<Charging> {
+    let n = time_s.len();
+    if n < 6 {
+        return None;
+    }
+    // Excess over the provisional Cottrell line; the charging shows as a positive, decaying one.
+    let excess: Vec<f64> = time_s
+        .iter()
+        .zip(current_a)
+        .map(|(t, y)| y - slope / t.sqrt() - intercept)
+        .collect();
+    if !(excess[0] > 0.0 && excess[1] > 0.0 && excess[0] > excess[1]) {
+        return None;
+    }
+    let tau0 = ((time_s[1] - time_s[0]) / (excess[0] / excess[1]).ln()).max(1e-9);
+    let a0 = excess[0] * (time_s[0] / tau0).exp().min(1e12);
+    let p0 = DVector::from_vec(vec![slope, intercept, a0.ln(), tau0.ln()]);
+    let problem = CottrellCharging {
+        time_s,
+        current_a,
+    };
+    let fit = solve(&problem, p0, &SolveOptions::default()).ok()?;
+    let (ln_a, ln_tau) = (fit.parameters[2], fit.parameters[3]);
+    let (se_ln_a, se_ln_tau) = (fit.standard_errors[2], fit.standard_errors[3]);
+    // Significant at 3 standard errors: on the log scale, a relative error below 1/3.
+    if !(se_ln_a < 1.0 / 3.0 && se_ln_tau < 1.0 / 3.0) {
+        return None;
+    }
+    let tau = ln_tau.exp();
+    // τ must lie inside the data, not beyond them, or it is an artefact of the fit.
+    if !(tau > 0.0 && tau < time_s[n - 1]) {
+        return None;
+    }
+    Some(Charging {
+        tau_s: tau,
+        tau_std_error_s: Some(tau * se_ln_tau),
+        amplitude_a: Some(ln_a.exp()),
+        fitted: true,
+        points: n,
+    })
+}
+
+/// The smallest t ≥ τ/2 after which A·e^(−t/τ) < f·S·t^-½ (the ratio decreases for t > τ/2).
+pub(crate) fn fraction_time(amplitude: f64, tau: f64, slope: f64, fraction: f64) -> f64 {
+    let ratio = |t: f64| amplitude * (-t / tau).exp() * t.sqrt() / (fraction * slope);
+    let mut lo = 0.5 * tau;
+    if ratio(lo) < 1.0 {
+        return lo;
+    }
+    let mut hi = lo;
+    while ratio(hi) >= 1.0 && hi < 1e6 * tau {
+        hi *= 2.0;
+    }
+    for _ in 0..100 {
+        let mid = 0.5 * (lo + hi);
+        if ratio(mid) >= 1.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    hi
+}
+
+/// The plateau check on I·√t in log-spaced bins.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PlateauCheck {
+    /// Bin centres (geometric mean time) in s.
+    pub bin_time_s: Vec<f64>,
+    /// Mean I·√t per bin in A·s^½.
+    pub bin_value: Vec<f64>,
+    /// Standard error of each bin mean (corrected for the autocorrelation of the noise).
+    pub bin_std_error: Vec<f64>,
+    /// z of each bin against the plateau extrapolated from the bins before it (NaN for the
+    /// reference bins).
+    pub bin_z: Vec<f64>,
+    /// Where I·√t first departs upward for two bins in a row (convection), in s.
+    pub rises_from_s: Option<f64>,
+    /// Where it first departs downward for two bins in a row, in s.
+    pub falls_from_s: Option<f64>,
+    /// z at the first departing bin.
+    pub departure_z: f64,
+    /// The criterion in words.
+    pub criterion: String,
+}
+
+/// Bins of I·√t from `t_from` on, ten per decade, at least eight points each; each bin is
+/// compared with the plateau (I·√t = S + b·√t, or S alone without an intercept) fitted to the
+/// bins before it, and the first of two consecutive bins beyond `z_limit` marks a departure.
+pub(crate) fn plateau_check(
+    time_s: &[f64],
+    current_a: &[f64],
+    t_from: f64,
+    t0: f64,
+    intercept: bool,
+    noise_sd_a: f64,
+    noise: NoiseModel,
+    z_limit: f64,
+) -> PlateauCheck {
+    let tt = |m: usize| time_s[m] - t0;
+    let start = time_s.partition_point(|&t| t < t_from);
+    let mut bin_time_s = Vec::new();
+    let mut bin_value = Vec::new();
+    let mut bin_std_error = Vec::new();
+    let mut bin_start_s = Vec::new();
+    let per_decade = 10.0;
+    let mut i = start;
+    let n = time_s.len();
+    while i < n {
+        let edge = time_s[i] * 10f64.powf(1.0 / per_decade);
+        let mut j = time_s[i..].partition_point(|&t| t < edge) + i;
+        j = j.max(i + 8).min(n);
+        if n - j < 8 {
+            j = n;
+        }
+        let k = (j - i) as f64;
+        let (mut sy, mut slt) = (0.0, 0.0);
+        for m in i..j {
+            sy += current_a[m] * tt(m).sqrt();
+            slt += tt(m).ln();
+        }
+        let mean = sy / k;
+        // The current's noise, scaled by √t into I·√t, averaged over k correlated samples.
+        let t_mid = (slt / k).exp();
+        let se = noise_sd_a * t_mid.sqrt() * (noise.mean_variance_factor(j - i) / k).sqrt();
+        bin_time_s.push(t_mid);
+        bin_value.push(mean);
+        bin_std_error.push(se);
+        bin_start_s.push(time_s[i]);
+        i = j;
+    }
+    let nb = bin_value.len();
+    let mut bin_z = vec![f64::NAN; nb];
+    let reference = 4;
+    for k in reference..nb {
+        // Weighted fit of the plateau model to the bins before k, then predict bin k.
+        let (pred, var) = plateau_predict(
+            &bin_time_s[..k],
+            &bin_value[..k],
+            &bin_std_error[..k],
+            bin_time_s[k],
+            intercept,
+        );
+        let se = (bin_std_error[k].powi(2) + var).sqrt();
+        bin_z[k] = if se > 0.0 { (bin_value[k] - pred) / se } else { 0.0 };
+    }
+    let mut rises_from_s = None;
+    let mut falls_from_s = None;
+    let mut departure_z = f64::NAN;
+    for k in reference..nb {
+        let next = if k + 1 < nb { bin_z[k + 1] } else { bin_z[k] };
+        if rises_from_s.is_none() && bin_z[k] > z_limit && next > z_limit {
+            rises_from_s = Some(bin_start_s[k]);
+            if falls_from_s.is_none() {
+                departure_z = bin_z[k];
+            }
+        }
+        if falls_from_s.is_none() && bin_z[k] < -z_limit && next < -z_limit {
+            falls_from_s = Some(bin_start_s[k]);
+            if rises_from_s.is_none() {
+                departure_z = bin_z[k];
+            }
+        }
+    }
+    PlateauCheck {
+        bin_time_s,
+        bin_value,
+        bin_std_error,
+        bin_z,
+        rises_from_s,
+        falls_from_s,
+        departure_z,
+        criterion: format!(
+            "I·√t in log-time bins (10 per decade, at least 8 points each; standard errors from the noise of a provisional fit, σ = {}, white plus AR(1) with c = {:.2}, φ = {:.3}, read from the variogram of its residuals); a bin departs when it lies more than {z_limit} standard errors from the plateau {} fitted to all earlier bins, and the first of two departing bins in a row marks the onset",
+            diffusor_trace::format_si(noise_sd_a, "A", 2),
+            noise.c,
+            noise.phi,
+            if intercept { "S + b·√t" } else { "S" },
+        ),
+    }
+}
+
+fn plateau_predict(t: &[f64], y: &[f64], se: &[f64], at: f64, intercept: bool) -> (f64, f64) {
+    let w: Vec<f64> = se.iter().map(|s| 1.0 / (s * s).max(f64::MIN_POSITIVE)).collect();
+    if !intercept {
+        let sw: f64 = w.iter().sum();
+        let m = w.iter().zip(y).map(|(w, y)| w * y).sum::<f64>() / sw;
+        return (m, 1.0 / sw);
+    }
+    // y = c0 + c1·√t, weighted, centred on the weighted mean of √t.
+    let sw: f64 = w.iter().sum();
+    let xm = w.iter().zip(t).map(|(w, t)| w * t.sqrt()).sum::<f64>() / sw;
+    let ym = w.iter().zip(y).map(|(w, y)| w * y).sum::<f64>() / sw;
+    let mut sxx = 0.0;
+    let mut sxy = 0.0;
+    for ((w, t), y) in w.iter().zip(t).zip(y) {
+        let dx = t.sqrt() - xm;
+        sxx += w * dx * dx;
+        sxy += w * dx * (y - ym);
+    }
+    if !(sxx > 0.0) {
+        return (ym, 1.0 / sw);
+    }
+    let c1 = sxy / sxx;
+    let dx = at.sqrt() - xm;
+    (ym + c1 * dx, 1.0 / sw + dx * dx / sxx)
+}
+
+/// Level shifts that look like current-range switching: a jump between neighbouring residuals
+/// far above their sample-to-sample scatter that persists (the means of the five residuals on
+/// each side differ by it too). Returns the times of the first sample after each jump.
+pub(crate) fn range_switches(time_s: &[f64], residual: &[f64]) -> Vec<f64> {
+    let n = residual.len();
+    if n < 20 {
+        return Vec::new();
+    }
+    let stride = (n / 200_000).max(1);
+    let mut d: Vec<f64> = (1..n)
+        .step_by(stride)
+        .map(|i| (residual[i] - residual[i - 1]).abs())
+        .collect();
+    let mid = d.len() / 2;
+    let mad = *d.select_nth_unstable_by(mid, f64::total_cmp).1;
+    let sigma = 1.4826 * mad;
+    if !(sigma > 0.0) {
+        return Vec::new();
+    }
+    let mut out = Vec::new();
+    let mut i = 5;
+    while i + 5 < n {
+        let jump = residual[i] - residual[i - 1];
+        if jump.abs() > 12.0 * sigma {
+            let before = residual[i - 5..i].iter().sum::<f64>() / 5.0;
+            let after = residual[i..i + 5].iter().sum::<f64>() / 5.0;
+            if (after - before).abs() > 0.6 * jump.abs() && (after - before) * jump > 0.0 {
+                out.push(time_s[i]);
+                i += 5;
+                continue;
+            }
+        }
+        i += 1;
+    }
+    out
+}
