@@ -111,15 +111,19 @@ impl Cell {
 
     /// A length scale for the edge of a disk: the radius as given, else √(A/π).
     pub fn disk_radius_m(&self) -> Option<f64> {
-        self.radius_m
-            .map(|r| r.value)
-            .or_else(|| self.area_m2.map(|a| (a.value / std::f64::consts::PI).sqrt()))
+        self.radius_m.map(|r| r.value).or_else(|| {
+            self.area_m2
+                .map(|a| (a.value / std::f64::consts::PI).sqrt())
+        })
     }
 
     /// Checks the entries for impossible values and says what is wrong.
     pub fn validate(&self) -> Result<(), String> {
         if !(self.n > 0.0 && self.n.is_finite()) {
-            return Err(format!("n must be a positive number of electrons, not {}", self.n));
+            return Err(format!(
+                "n must be a positive number of electrons, not {}",
+                self.n
+            ));
         }
         let checks = [
             ("area", self.area_m2),
@@ -133,14 +137,18 @@ impl Cell {
                     return Err(format!("the {name} must be positive, not {}", m.value));
                 }
                 if !(m.u >= 0.0 && m.u.is_finite()) {
-                    return Err(format!("the uncertainty of the {name} must be zero or positive"));
+                    return Err(format!(
+                        "the uncertainty of the {name} must be zero or positive"
+                    ));
                 }
             }
         }
         if let Some(t) = self.temperature_k
             && !(t > 0.0 && t.is_finite())
         {
-            return Err(format!("the temperature must be positive in kelvin, not {t}"));
+            return Err(format!(
+                "the temperature must be positive in kelvin, not {t}"
+            ));
         }
         Ok(())
     }

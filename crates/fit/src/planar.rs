@@ -418,7 +418,10 @@ pub fn analyze(
     cell.validate().map_err(AnalysisError::Cell)?;
     let mut warnings = Vec::new();
     let range = segment.start..segment.end;
-    let sign = segment.polarity.or(trace.polarity).map_or(1.0, |p| p.factor());
+    let sign = segment
+        .polarity
+        .or(trace.polarity)
+        .map_or(1.0, diffusor_trace::Polarity::factor);
 
     // Times from the segment's own step, positive ones only.
     let all_t = &trace.time_s[range.clone()];
@@ -478,14 +481,7 @@ pub fn analyze(
         }
         (None, _) => Cow::Borrowed(raw),
     };
-    analyze_data(
-        &time,
-        &current,
-        cell,
-        options,
-        background_text,
-        warnings,
-    )
+    analyze_data(&time, &current, cell, options, background_text, warnings)
 }
 
 fn slice_window<'a>(t: &'a [f64], y: &'a [f64], a: usize, b: usize, t0: f64) -> Window<'a> {
@@ -536,7 +532,10 @@ pub fn analyze_data(
     let (lt0, lt1) = (time[0].ln(), time[n - 1].ln());
     let ta = (lt0 + 0.25 * (lt1 - lt0)).exp();
     let tb = (lt0 + 0.6 * (lt1 - lt0)).exp();
-    let (mut pa, mut pb) = (time.partition_point(|&t| t < ta), time.partition_point(|&t| t <= tb));
+    let (mut pa, mut pb) = (
+        time.partition_point(|&t| t < ta),
+        time.partition_point(|&t| t <= tb),
+    );
     if pb - pa < 10 {
         pa = n / 4;
         pb = (n * 3 / 4).max(pa + 10).min(n);
@@ -551,8 +550,14 @@ pub fn analyze_data(
     // times; a first estimate of t0 from the middle of the transient keeps the charging and
     // plateau checks below from mistaking that bend for charging or a departure.
     let t0_p = if options.refine_t0 && !options.interval_average {
-        refine_onset(&time[pa..pb], &current[pa..pb], &provisional, 0.0, options.intercept)
-            .map_or(0.0, |r| r.0)
+        refine_onset(
+            &time[pa..pb],
+            &current[pa..pb],
+            &provisional,
+            0.0,
+            options.intercept,
+        )
+        .unwrap_or(0.0)
     } else {
         0.0
     };
@@ -584,7 +589,13 @@ pub fn analyze_data(
                     fitted: false,
                     points: 0,
                 });
-                candidates.push((wopt.k_tau * tau, BoundReason::ChargingTime { tau_s: tau, k: wopt.k_tau }));
+                candidates.push((
+                    wopt.k_tau * tau,
+                    BoundReason::ChargingTime {
+                        tau_s: tau,
+                        k: wopt.k_tau,
+                    },
+                ));
             } else {
                 let early = pa.clamp(6, 400).min(n);
                 let shifted: Vec<f64> = time[..early].iter().map(|t| t - t0_p).collect();
@@ -643,10 +654,7 @@ pub fn analyze_data(
                     },
                 ));
             }
-            match candidates
-                .into_iter()
-                .max_by(|a, b| a.0.total_cmp(&b.0))
-            {
+            match candidates.into_iter().max_by(|a, b| a.0.total_cmp(&b.0)) {
                 Some((t, reason)) if t > time[0] => Bound::new(t, true, reason),
                 _ => Bound::new(time[0], true, BoundReason::FirstSample),
             }
@@ -678,9 +686,10 @@ pub fn analyze_data(
         _ => None,
     };
     let edge = match (cell.geometry, cell.disk_radius_m(), provisional_d) {
-        (Geometry::Planar | Geometry::Microdisk, Some(r), Some(d)) if d > 0.0 => {
-            Some(((wopt.edge_share_limit * r).powi(2) / (std::f64::consts::PI * d), r))
-        }
+        (Geometry::Planar | Geometry::Microdisk, Some(r), Some(d)) if d > 0.0 => Some((
+            (wopt.edge_share_limit * r).powi(2) / (std::f64::consts::PI * d),
+            r,
+        )),
         _ => None,
     };
     let hi = match wopt.hi {
@@ -756,24 +765,34 @@ pub fn analyze_data(
         ci95: [0.0, 0.0],
     };
     let mut t0_refined = false;
-    let mut t0_inflation = 1.0;
+    // With t0 free, the covariance of (S, b) is the three-parameter one.
+    let mut joint: Option<nalgebra::DMatrix<f64>> = None;
     if options.refine_t0 && !options.interval_average {
         match refine_onset(&time[a..b], &current[a..b], &line, t0_p, options.intercept) {
-            Ok((t0_value, t0_se, inflation)) => {
-                let refit = fit_line(
+            Ok(t0_value) => {
+                line = fit_line(
                     &slice_window(time, current, a, b, t0_value),
                     regressor_at(a),
                     weighting,
                     options.intercept,
                 )?;
-                line = refit;
-                t0_inflation = inflation;
-                t0 = estimate(t0_value, t0_se * inflation.sqrt().max(1.0), line.degrees_of_freedom);
+                joint = if weighting == Weighting::Ordinary {
+                    onset_covariance(&time[a..b], &line, t0_value, options.intercept)
+                } else {
+                    None
+                };
+                let k = if options.intercept { 2 } else { 1 };
+                let t0_se = joint.as_ref().map_or(f64::NAN, |c| c[(k, k)].sqrt());
+                t0 = estimate(t0_value, t0_se, line.degrees_of_freedom);
                 t0_refined = true;
             }
             Err(message) => warnings.push(warn(WarningCode::OnsetNotRefined, message)),
         }
     }
+    // The slope's variance with t0 free, relative to t0 fixed (1 when t0 was not refined).
+    let t0_inflation = joint
+        .as_ref()
+        .map_or(1.0, |c| (c[(0, 0)] / line.covariance[0][0]).max(1.0));
 
     let dof = line.degrees_of_freedom;
     let slope_se = line.slope_std_error() * t0_inflation.sqrt();
@@ -784,7 +803,11 @@ pub fn analyze_data(
         unit: "A·s^½",
         estimate: slope,
     }];
-    if let (Some(b_value), Some(b_se)) = (line.intercept, line.intercept_std_error()) {
+    let intercept_se = match (&joint, line.intercept_std_error()) {
+        (Some(c), Some(se)) => Some(c[(1, 1)].sqrt().max(se)),
+        (_, se) => se,
+    };
+    if let (Some(b_value), Some(b_se)) = (line.intercept, intercept_se) {
         params.push(Param {
             name: "background current (intercept)",
             symbol: "b",
@@ -800,7 +823,14 @@ pub fn analyze_data(
             estimate: t0,
         });
     }
-    let correlations = correlation(&line.covariance);
+    let correlations = match &joint {
+        Some(c) => correlation(
+            &(0..c.nrows())
+                .map(|i| (0..c.ncols()).map(|j| c[(i, j)]).collect())
+                .collect::<Vec<Vec<f64>>>(),
+        ),
+        None => correlation(&line.covariance),
+    };
 
     // Results.
     let mut diffusion_m2_s = None;
@@ -824,7 +854,12 @@ pub fn analyze_data(
             ],
         });
         let slope_input = ("Cottrell slope S", line.slope, "A·s^½", slope_se);
-        let d_input = ("known diffusion coefficient D", d_known.value, "m²/s", d_known.u);
+        let d_input = (
+            "known diffusion coefficient D",
+            d_known.value,
+            "m²/s",
+            d_known.u,
+        );
         result_budget = Some(match conc {
             Some(c) => {
                 // A = n·A·C/(n·C): the area's budget adds the concentration.
@@ -842,8 +877,20 @@ pub fn analyze_data(
                     "m²",
                     area,
                     vec![
-                        (slope_input.0, slope_input.1, slope_input.2, slope_input.3, area / line.slope),
-                        (d_input.0, d_input.1, d_input.2, d_input.3, -area / (2.0 * d_known.value)),
+                        (
+                            slope_input.0,
+                            slope_input.1,
+                            slope_input.2,
+                            slope_input.3,
+                            area / line.slope,
+                        ),
+                        (
+                            d_input.0,
+                            d_input.1,
+                            d_input.2,
+                            d_input.3,
+                            -area / (2.0 * d_known.value),
+                        ),
                         ("concentration C", c.value, "mol/m³", c.u, -area / c.value),
                     ],
                 )
@@ -853,8 +900,20 @@ pub fn analyze_data(
                 "mol/m",
                 nac,
                 vec![
-                    (slope_input.0, slope_input.1, slope_input.2, slope_input.3, nac / line.slope),
-                    (d_input.0, d_input.1, d_input.2, d_input.3, -nac / (2.0 * d_known.value)),
+                    (
+                        slope_input.0,
+                        slope_input.1,
+                        slope_input.2,
+                        slope_input.3,
+                        nac / line.slope,
+                    ),
+                    (
+                        d_input.0,
+                        d_input.1,
+                        d_input.2,
+                        d_input.3,
+                        -nac / (2.0 * d_known.value),
+                    ),
                 ],
             ),
         });
@@ -943,7 +1002,10 @@ pub fn analyze_data(
             ),
         ));
     }
-    if let (Some((t_edge, r)), Some(d)) = (edge, diffusion_m2_s.map(|e| e.value).or(known_d.map(|k| k.value))) {
+    if let (Some((t_edge, r)), Some(d)) = (
+        edge,
+        diffusion_m2_s.map(|e| e.value).or(known_d.map(|k| k.value)),
+    ) {
         let share = (std::f64::consts::PI * d * hi.time_s).sqrt() / r;
         if hi.time_s >= t_edge * 0.999 || share >= wopt.edge_share_limit * 0.999 {
             warnings.push(warn(
@@ -1008,7 +1070,7 @@ pub fn analyze_data(
             line.noise.phi,
             line.effective_points,
             if t0_refined {
-                "; slope variance also widened by the share due to the fitted t0"
+                "; with t0 free, the covariance of S, b and t0 is the same sandwich on the three-parameter Jacobian"
             } else {
                 ""
             }
@@ -1021,9 +1083,9 @@ pub fn analyze_data(
         },
     };
 
-    let sensitivity = options.sensitivity.then(|| {
-        window_sensitivity(time, current, a, b, t0.value, options, cell)
-    });
+    let sensitivity = options
+        .sensitivity
+        .then(|| window_sensitivity(time, current, a, b, t0.value, options, cell));
 
     Ok(PlanarResult {
         model: "planar-cottrell",
@@ -1061,16 +1123,15 @@ fn correlation(cov: &[Vec<f64>]) -> Vec<Vec<f64>> {
         .collect()
 }
 
-/// Fits t0 with the shifted Cottrell model (on at most 50 000 evenly strided points) and returns
-/// t0, its standard error, and the factor by which its freedom widens the slope's variance: the
-/// ratio of the slope's marginal to its conditional (t0 known) variance, C_SS/(C_SS − C_St0²/C_t0t0).
+/// Fits t0 with the shifted Cottrell model (on at most 50 000 evenly strided points) and
+/// returns it; the covariance is computed afterwards by [`onset_covariance`].
 fn refine_onset(
     time: &[f64],
     current: &[f64],
     line: &LineFit,
     t0_start: f64,
     intercept: bool,
-) -> Result<(f64, f64, f64), String> {
+) -> Result<f64, String> {
     let stride = (time.len() / 50_000).max(1);
     let (t, y): (Vec<f64>, Vec<f64>) = time
         .iter()
@@ -1088,20 +1149,46 @@ fn refine_onset(
         p0.push(line.intercept.unwrap_or(0.0));
     }
     p0.push(t0_start);
-    let fit = solve(&problem, DVector::from_vec(p0), &SolveOptions::default())
-        .map_err(|e| format!("the step onset could not be refined ({e}); t0 was kept at the importer's value"))?;
-    let k = fit.parameters.len() - 1;
-    let t0 = fit.parameters[k];
+    let fit = solve(&problem, DVector::from_vec(p0), &SolveOptions::default()).map_err(|e| {
+        format!("the step onset could not be refined ({e}); t0 was kept at the importer's value")
+    })?;
+    let t0 = fit.parameters[fit.parameters.len() - 1];
     if !(t0 < time[0]) {
         return Err(format!(
             "the refined step onset ({}) falls after the window's first sample; t0 was kept at the importer's value",
             crate::fmt_s(t0)
         ));
     }
-    let c = &fit.covariance;
-    let conditional = c[0][0] - c[0][k] * c[0][k] / c[k][k];
-    let inflation = if conditional > 0.0 { c[0][0] / conditional } else { 1.0 };
-    Ok((t0, fit.standard_errors[k], inflation.max(1.0)))
+    Ok(t0)
+}
+
+/// The covariance of (S, b, t0) — or (S, t0) without an intercept — for the shifted Cottrell
+/// model at the fitted values, as a sandwich for the line's noise model, from the Jacobian on at
+/// most 50 000 evenly strided points (φ then applies per stride: φ^stride).
+fn onset_covariance(
+    time: &[f64],
+    line: &LineFit,
+    t0: f64,
+    intercept: bool,
+) -> Option<nalgebra::DMatrix<f64>> {
+    let stride = (time.len() / 50_000).max(1);
+    let rows: Vec<f64> = time.iter().step_by(stride).copied().collect();
+    let p = if intercept { 3 } else { 2 };
+    let j = nalgebra::DMatrix::from_fn(rows.len(), p, |i, c| {
+        let dt = rows[i] - t0;
+        match (c, intercept) {
+            (0, _) => 1.0 / dt.sqrt(),
+            (1, true) => 1.0,
+            _ => 0.5 * line.slope / (dt * dt.sqrt()),
+        }
+    });
+    let noise = NoiseModel {
+        c: line.noise.c,
+        phi: line.noise.phi.powi(stride as i32),
+    };
+    // The strided rows stand for `stride` points each: their variance is divided accordingly.
+    let s2 = line.residual_sd.powi(2) / stride as f64;
+    crate::regression::sandwich_covariance(&j, s2, noise)
 }
 
 /// D (or n·A·C, or the slope) as each bound moves, the other fixed: 12 log-spaced positions of
@@ -1119,11 +1206,12 @@ fn window_sensitivity(
     let n = time.len();
     let stride = (n / 50_000).max(1);
     let area = cell.effective_area_m2();
-    let (quantity, unit): (&'static str, &'static str) = match (cell.known_d_m2_s, area, cell.conc_mol_m3) {
-        (Some(_), _, _) => ("nAC", "mol/m"),
-        (None, Some(_), Some(_)) => ("D", "m²/s"),
-        _ => ("slope", "A·s^½"),
-    };
+    let (quantity, unit): (&'static str, &'static str) =
+        match (cell.known_d_m2_s, area, cell.conc_mol_m3) {
+            (Some(_), _, _) => ("nAC", "mol/m"),
+            (None, Some(_), Some(_)) => ("D", "m²/s"),
+            _ => ("slope", "A·s^½"),
+        };
     let value = |s: f64, se: f64| -> (f64, f64) {
         match (cell.known_d_m2_s, area, cell.conc_mol_m3) {
             (Some(d), _, _) => {
@@ -1151,7 +1239,13 @@ fn window_sensitivity(
             t_after_s: None,
             t0_s: t0,
         };
-        let line = fit_line(&win, Regressor::InverseSqrt, Weighting::Ordinary, options.intercept).ok()?;
+        let line = fit_line(
+            &win,
+            Regressor::InverseSqrt,
+            Weighting::Ordinary,
+            options.intercept,
+        )
+        .ok()?;
         let (v, se) = value(line.slope, line.slope_std_error());
         Some(SensitivityPoint {
             bound_s: time[lo_i].max(0.0),
@@ -1194,7 +1288,11 @@ fn window_sensitivity(
         upper,
         note: format!(
             "ordinary least squares of I on (t − t0)^-½{} with t0 held at the fitted value{}; standard errors without the autocorrelation correction",
-            if options.intercept { " with an intercept" } else { "" },
+            if options.intercept {
+                " with an intercept"
+            } else {
+                ""
+            },
             if stride > 1 {
                 format!(", on every {stride}th point")
             } else {

@@ -164,7 +164,9 @@ impl NoiseModel {
         let gamma: Vec<f64> = (1..=max_lag)
             .map(|k| {
                 let m = n - k;
-                (0..m).map(|i| (residuals[i + k] - residuals[i]).powi(2)).sum::<f64>()
+                (0..m)
+                    .map(|i| (residuals[i + k] - residuals[i]).powi(2))
+                    .sum::<f64>()
                     / (2.0 * m as f64)
             })
             .collect();
@@ -193,6 +195,37 @@ impl NoiseModel {
     pub fn effective_points(&self, n: usize) -> f64 {
         n as f64 / (1.0 + 2.0 * self.c * self.phi / (1.0 - self.phi))
     }
+}
+
+/// The sandwich covariance `s²·(JᵀJ)⁻¹·M·(JᵀJ)⁻¹` of a least-squares estimate whose rows of
+/// the Jacobian (or design) `j` are in time order, for white plus AR(1) noise: M = (1 − c)·JᵀJ
+/// plus c·Σᵢ Σⱼ jᵢ jⱼᵀ φ^|i−j|, the second sum by the recursion hᵢ = φ·(hᵢ₋₁ + jᵢ₋₁).
+/// Returns `None` when JᵀJ is singular.
+pub fn sandwich_covariance(
+    j: &nalgebra::DMatrix<f64>,
+    s2: f64,
+    noise: NoiseModel,
+) -> Option<nalgebra::DMatrix<f64>> {
+    let p = j.ncols();
+    let jtj = j.transpose() * j;
+    let inv = jtj.clone().try_inverse()?;
+    let mut middle = jtj.clone() * (1.0 - noise.c);
+    if noise.c > 0.0 && noise.phi > 0.0 {
+        let phi = noise.phi;
+        let mut h = nalgebra::DVector::<f64>::zeros(p);
+        let mut prev = nalgebra::DVector::<f64>::zeros(p);
+        let mut m = nalgebra::DMatrix::<f64>::zeros(p, p);
+        for i in 0..j.nrows() {
+            let z = j.row(i).transpose();
+            if i > 0 {
+                h = (&h + &prev) * phi;
+            }
+            m += &z * z.transpose() + &z * h.transpose() + &h * z.transpose();
+            prev = z;
+        }
+        middle += m * noise.c;
+    }
+    Some(&inv * middle * &inv * s2)
 }
 
 /// Lags of the residual autocorrelation used for the noise model.
@@ -236,8 +269,16 @@ fn weight(w: Weighting, win: &Window<'_>, i: usize) -> f64 {
         Weighting::LogTime => {
             let t = win.time_s;
             let n = t.len();
-            let before = if i == 0 { win.t_before_s } else { Some(t[i - 1]) };
-            let after = if i + 1 == n { win.t_after_s } else { Some(t[i + 1]) };
+            let before = if i == 0 {
+                win.t_before_s
+            } else {
+                Some(t[i - 1])
+            };
+            let after = if i + 1 == n {
+                win.t_after_s
+            } else {
+                Some(t[i + 1])
+            };
             let ti = t[i] - win.t0_s;
             match (before, after) {
                 (Some(b), Some(a)) => (a - b) / (2.0 * ti),
@@ -254,7 +295,9 @@ fn chunked<T: Send>(n: usize, f: impl Fn(usize, usize) -> T + Sync) -> Vec<T> {
     let parts = if n < PARALLEL_MIN {
         1
     } else {
-        std::thread::available_parallelism().map_or(1, usize::from).clamp(1, 8)
+        std::thread::available_parallelism()
+            .map_or(1, usize::from)
+            .clamp(1, 8)
     };
     if parts == 1 {
         return vec![f(0, n)];
@@ -304,7 +347,7 @@ pub fn fit_line(
         });
     }
     let t0 = win.t0_s;
-    if let Some(i) = (0..n).find(|&i| !(t[i] > t0 && t[i].is_finite()) || !y[i].is_finite()) {
+    if let Some(i) = (0..n).find(|&i| !(t[i] > t0 && t[i].is_finite() && y[i].is_finite())) {
         return Err(FitError::NonFiniteInput {
             what: "window (time must be positive, current finite)",
             row: i,
@@ -328,7 +371,11 @@ pub fn fit_line(
     if !(sw > 0.0) {
         return Err(FitError::InvalidWeight { row: 0, weight: sw });
     }
-    let (xm, ym) = if intercept { (swx / sw, swy / sw) } else { (0.0, 0.0) };
+    let (xm, ym) = if intercept {
+        (swx / sw, swy / sw)
+    } else {
+        (0.0, 0.0)
+    };
 
     // Pass 2: centred (or, without intercept, raw) second moments.
     let moments = chunked(n, |a, b| {
@@ -356,7 +403,7 @@ pub fn fit_line(
         });
     }
     let slope = sxy / sxx;
-    let icept = intercept.then(|| ym - slope * xm);
+    let icept = intercept.then_some(ym - slope * xm);
 
     // Pass 3: residual diagnostics.
     let resid = |i: usize| y[i] - icept.unwrap_or(0.0) - slope * x_at(i);
@@ -399,9 +446,7 @@ pub fn fit_line(
         }
         d
     });
-    let d = diag
-        .iter()
-        .fold(ResidualSums::default(), |acc, x| acc.add(x));
+    let d = diag.iter().fold(ResidualSums::default(), ResidualSums::add);
     let dof_plain = (n - p) as f64;
     let s2 = d.rr / dof_plain;
     let rho = if d.rr > 0.0 { d.lag / d.rr } else { 0.0 };
@@ -590,9 +635,18 @@ mod tests {
             .enumerate()
             .map(|(k, t)| 1e-5 / t.sqrt() + 2e-8 + 1e-8 * ((k * 7919 % 13) as f64 - 6.0))
             .collect();
-        let fit = fit_line(&window(&t, &y), Regressor::InverseSqrt, Weighting::Ordinary, true)
-            .expect("fit");
-        let design = DMatrix::from_fn(t.len(), 2, |i, j| if j == 0 { 1.0 / t[i].sqrt() } else { 1.0 });
+        let fit = fit_line(
+            &window(&t, &y),
+            Regressor::InverseSqrt,
+            Weighting::Ordinary,
+            true,
+        )
+        .expect("fit");
+        let design = DMatrix::from_fn(
+            t.len(),
+            2,
+            |i, j| if j == 0 { 1.0 / t[i].sqrt() } else { 1.0 },
+        );
         let qr = lstsq(&design, &DVector::from_vec(y.clone()), None).expect("qr");
         assert!((fit.slope - qr.coefficients[0]).abs() / qr.coefficients[0].abs() < 1e-12);
         assert!((fit.intercept.expect("b") - qr.coefficients[1]).abs() < 1e-18);
@@ -616,8 +670,13 @@ mod tests {
                 3e-6 / t.sqrt() + state
             })
             .collect();
-        let fit = fit_line(&window(&t, &y), Regressor::InverseSqrt, Weighting::LogTime, true)
-            .expect("fit");
+        let fit = fit_line(
+            &window(&t, &y),
+            Regressor::InverseSqrt,
+            Weighting::LogTime,
+            true,
+        )
+        .expect("fit");
         // Direct O(n) evaluation of the middle matrix on one thread.
         let w = |i: usize| weight(Weighting::LogTime, &window(&t, &y), i);
         let x = |i: usize| 1.0 / t[i].sqrt();
@@ -640,7 +699,11 @@ mod tests {
         let m0: f64 = (0..n).map(|i| (w(i) * (x(i) - xm)).powi(2)).sum();
         let s2 = fit.residual_sd.powi(2);
         let v_b = s2 * ((1.0 - c) * m0 + c * m2) / (sxx * sxx);
-        assert!((fit.covariance[0][0] - v_b).abs() / v_b < 1e-8, "{} vs {v_b}", fit.covariance[0][0]);
+        assert!(
+            (fit.covariance[0][0] - v_b).abs() / v_b < 1e-8,
+            "{} vs {v_b}",
+            fit.covariance[0][0]
+        );
     }
 
     #[test]
@@ -658,10 +721,16 @@ mod tests {
         // ρ(k) = 0.4·0.9^k exactly: the line through ln ρ recovers c and φ.
         let rho: Vec<f64> = (1..=10).map(|k| 0.4 * 0.9f64.powi(k)).collect();
         let m = NoiseModel::from_autocorrelation(&rho, 10_000);
-        assert!((m.phi - 0.9).abs() < 1e-12 && (m.c - 0.4).abs() < 1e-12, "{m:?}");
+        assert!(
+            (m.phi - 0.9).abs() < 1e-12 && (m.c - 0.4).abs() < 1e-12,
+            "{m:?}"
+        );
         // The variance of a mean of k: for k = 2 it is 1 + ρ(1) by definition.
         assert!((m.mean_variance_factor(2) - (1.0 + 0.4 * 0.9)).abs() < 1e-12);
-        assert_eq!(NoiseModel::from_autocorrelation(&[0.001; 10], 10_000), NoiseModel::WHITE);
+        assert_eq!(
+            NoiseModel::from_autocorrelation(&[0.001; 10], 10_000),
+            NoiseModel::WHITE
+        );
     }
 
     #[test]

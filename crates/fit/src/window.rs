@@ -41,7 +41,7 @@ pub struct WindowOptions {
     pub cdl_f: Option<f64>,
     /// The window ends where the edge share √(πDt)/r of a disk reaches this (default 0.1).
     pub edge_share_limit: f64,
-    /// z above which a log-time bin of I·√t counts as departing from the plateau (default 3).
+    /// z above which a log-time bin of I·√t counts as departing from the plateau (default 4).
     pub departure_z: f64,
     /// Fewest points a window may hold (default 20).
     pub min_points: usize,
@@ -58,7 +58,7 @@ impl Default for WindowOptions {
             ru_ohm: None,
             cdl_f: None,
             edge_share_limit: 0.1,
-            departure_z: 3.0,
+            departure_z: 4.0,
             min_points: 20,
         }
     }
@@ -227,10 +227,7 @@ pub(crate) fn estimate_charging(
     let tau0 = ((time_s[1] - time_s[0]) / (excess[0] / excess[1]).ln()).max(1e-9);
     let a0 = excess[0] * (time_s[0] / tau0).exp().min(1e12);
     let p0 = DVector::from_vec(vec![slope, intercept, a0.ln(), tau0.ln()]);
-    let problem = CottrellCharging {
-        time_s,
-        current_a,
-    };
+    let problem = CottrellCharging { time_s, current_a };
     let fit = solve(&problem, p0, &SolveOptions::default()).ok()?;
     let (ln_a, ln_tau) = (fit.parameters[2], fit.parameters[3]);
     let (se_ln_a, se_ln_tau) = (fit.standard_errors[2], fit.standard_errors[3]);
@@ -299,6 +296,7 @@ pub struct PlateauCheck {
 /// Bins of I·√t from `t_from` on, ten per decade, at least eight points each; each bin is
 /// compared with the plateau (I·√t = S + b·√t, or S alone without an intercept) fitted to the
 /// bins before it, and the first of two consecutive bins beyond `z_limit` marks a departure.
+#[allow(clippy::too_many_arguments)] // Each is one number of the test; a struct would only rename them.
 pub(crate) fn plateau_check(
     time_s: &[f64],
     current_a: &[f64],
@@ -354,7 +352,11 @@ pub(crate) fn plateau_check(
             intercept,
         );
         let se = (bin_std_error[k].powi(2) + var).sqrt();
-        bin_z[k] = if se > 0.0 { (bin_value[k] - pred) / se } else { 0.0 };
+        bin_z[k] = if se > 0.0 {
+            (bin_value[k] - pred) / se
+        } else {
+            0.0
+        };
     }
     let mut rises_from_s = None;
     let mut falls_from_s = None;
@@ -393,7 +395,10 @@ pub(crate) fn plateau_check(
 }
 
 fn plateau_predict(t: &[f64], y: &[f64], se: &[f64], at: f64, intercept: bool) -> (f64, f64) {
-    let w: Vec<f64> = se.iter().map(|s| 1.0 / (s * s).max(f64::MIN_POSITIVE)).collect();
+    let w: Vec<f64> = se
+        .iter()
+        .map(|s| 1.0 / (s * s).max(f64::MIN_POSITIVE))
+        .collect();
     if !intercept {
         let sw: f64 = w.iter().sum();
         let m = w.iter().zip(y).map(|(w, y)| w * y).sum::<f64>() / sw;

@@ -49,18 +49,30 @@ pub struct ShiftedCottrell<'a> {
 
 impl LeastSquaresProblem for ShiftedCottrell<'_> {
     fn residuals(&self, p: &DVector<f64>) -> DVector<f64> {
-        let (s, b, t0) = if self.intercept { (p[0], p[1], p[2]) } else { (p[0], 0.0, p[1]) };
+        let (s, b, t0) = if self.intercept {
+            (p[0], p[1], p[2])
+        } else {
+            (p[0], 0.0, p[1])
+        };
         DVector::from_iterator(
             self.time_s.len(),
             self.time_s.iter().zip(self.current_a).map(|(&t, &y)| {
                 let dt = t - t0;
-                if dt > 0.0 { y - s / dt.sqrt() - b } else { f64::NAN }
+                if dt > 0.0 {
+                    y - s / dt.sqrt() - b
+                } else {
+                    f64::NAN
+                }
             }),
         )
     }
 
     fn jacobian(&self, p: &DVector<f64>) -> DMatrix<f64> {
-        let (s, t0) = if self.intercept { (p[0], p[2]) } else { (p[0], p[1]) };
+        let (s, t0) = if self.intercept {
+            (p[0], p[2])
+        } else {
+            (p[0], p[1])
+        };
         let cols = if self.intercept { 3 } else { 2 };
         DMatrix::from_fn(self.time_s.len(), cols, |i, j| {
             let dt = self.time_s[i] - t0;
