@@ -48,6 +48,7 @@ pub mod constants;
 pub mod error;
 pub mod linalg;
 pub mod models;
+pub mod replicates;
 pub mod solver;
 
 pub use error::FitError;
