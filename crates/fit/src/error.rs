@@ -145,4 +145,49 @@ pub enum FitError {
         /// type stays out of this crate's API.
         message: String,
     },
+
+    /// A replicate summary was asked of fewer runs than it needs.
+    #[error("too few runs: {runs} given, at least {needed} needed")]
+    TooFewRuns {
+        /// Runs supplied.
+        runs: usize,
+        /// Runs the statistic needs.
+        needed: usize,
+    },
+
+    /// A run's estimate is NaN or infinite, so it cannot enter a replicate
+    /// summary.
+    #[error("run {index} `{label}` has non-finite value {value}")]
+    NonFiniteRunValue {
+        /// Zero-based position of the run in the input.
+        index: usize,
+        /// The run's label.
+        label: String,
+        /// The offending value.
+        value: f64,
+    },
+
+    /// A replicate statistic overflowed double precision although every
+    /// input was finite (values or standard errors near the limits of `f64`).
+    #[error("the {what} of the runs is not finite in double precision")]
+    NonFiniteStatistic {
+        /// Which statistic overflowed.
+        what: &'static str,
+    },
+
+    /// A significance level is not strictly between 0 and 1.
+    #[error("significance level {alpha} must lie strictly between 0 and 1")]
+    InvalidSignificance {
+        /// The level given.
+        alpha: f64,
+    },
+
+    /// A probability distribution refused its parameters. The replicate code
+    /// only builds distributions with at least one degree of freedom, so this
+    /// would mean a bug, not bad input.
+    #[error("distribution rejected its parameters: {message}")]
+    Distribution {
+        /// The distribution's message.
+        message: String,
+    },
 }

@@ -1,4 +1,15 @@
-//! Least-squares engine of Diffusor.
+//! The fitting engine of Diffusor: from a [`diffusor_trace::Trace`] to a diffusion coefficient
+//! with an uncertainty a reviewer can trust.
+//!
+//! - [`planar::analyze`] is the planar Cottrell analysis of one step: background, automatic
+//!   charging and convection windows ([`window`]), the Cottrell line ([`regression`]) with the
+//!   step onset refined, D or n·A·C with 95 % intervals and a GUM budget, diagnostics, window
+//!   sensitivity and plain-language warnings. [`cell::Cell`] holds what the user entered.
+//! - [`replicates::summarize`] compares several runs: mean, SD, RSD, t interval, weighted mean
+//!   with the Birge ratio, Grubbs' outlier test.
+//! - [`models`] holds the published current–time laws; [`constants`] CODATA 2018.
+//!
+//! Underneath is a least-squares engine:
 //!
 //! - [`linalg::lstsq`] fits a linear model `y ≈ X·β` with Householder QR
 //!   and iterative refinement, and [`linalg::QrAccumulator`] does the same in
@@ -51,6 +62,7 @@ pub mod linalg;
 pub mod models;
 pub mod planar;
 pub mod regression;
+pub mod replicates;
 pub mod solver;
 pub mod window;
 
