@@ -169,6 +169,19 @@ pub enum ImportError {
         /// The repeated time in seconds.
         time_s: f64,
     },
+    /// Times so large compared with their spacing that moving the origin to the step merges
+    /// neighbouring samples.
+    #[error(
+        "line {line}: the times are too large for their spacing ({time_s} s); neighbouring samples become equal once the origin moves to the step: {file}"
+    )]
+    TimeResolution {
+        /// File name or label.
+        file: String,
+        /// Line of the first merged row.
+        line: u64,
+        /// Its time on the file's clock, in s.
+        time_s: f64,
+    },
     /// Fewer rows than any fit can use.
     #[error(
         "only {rows} data rows; a fit needs at least {needed} (was the export cut short?): {file}"

@@ -832,6 +832,15 @@ fn build_trace(
     if onset.file_time_s != 0.0 {
         let t0 = onset.file_time_s;
         time_s.iter_mut().for_each(|t| *t -= t0);
+        // Subtraction keeps the order but can merge samples whose spacing is below the
+        // precision of their magnitude.
+        if let Some(i) = (1..time_s.len()).find(|&i| time_s[i] <= time_s[i - 1]) {
+            return Err(ImportError::TimeResolution {
+                file: file.to_owned(),
+                line: parsed.line_of_row(i),
+                time_s: time_s[i] + t0,
+            });
+        }
     }
     let n = time_s.len();
     if starts.is_empty() {

@@ -121,6 +121,18 @@ fn time_going_backwards() {
 }
 
 #[test]
+fn times_too_large_for_their_spacing() {
+    // Found by the fuzzer: huge clock values whose spacing vanishes once the origin moves to
+    // the step. It must be refused, not returned with equal times.
+    let bytes = include_bytes!("data/fuzz-time-resolution.bin");
+    let e = err(bytes);
+    assert!(
+        e.contains("the times are too large for their spacing"),
+        "{e}"
+    );
+}
+
+#[test]
 fn duplicate_timestamps() {
     let text = format!("t (s),I (A)\n{}0.12,1e-6\n", good_rows(12));
     assert_eq!(
