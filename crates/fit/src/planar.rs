@@ -753,12 +753,19 @@ pub fn analyze_data(
 
     // The fit: the line at t0 = 0, then t0 refined and the line again.
     let weighting = options.weighting;
-    let mut line = fit_line(
-        &slice_window(time, current, a, b, t0_p),
-        regressor_at(a),
-        weighting,
-        options.intercept,
-    )?;
+    let refine = options.refine_t0 && !options.interval_average;
+    // With t0 to be refined, the provisional line is a good enough start; the line over the
+    // window is fitted once, at the refined t0.
+    let mut line = if refine {
+        provisional.clone()
+    } else {
+        fit_line(
+            &slice_window(time, current, a, b, t0_p),
+            regressor_at(a),
+            weighting,
+            options.intercept,
+        )?
+    };
     let mut t0 = Estimate {
         value: 0.0,
         std_error: 0.0,
@@ -767,7 +774,7 @@ pub fn analyze_data(
     let mut t0_refined = false;
     // With t0 free, the covariance of (S, b) is the three-parameter one.
     let mut joint: Option<nalgebra::DMatrix<f64>> = None;
-    if options.refine_t0 && !options.interval_average {
+    if refine {
         match refine_onset(&time[a..b], &current[a..b], &line, t0_p, options.intercept) {
             Ok(t0_value) => {
                 line = fit_line(
@@ -786,7 +793,15 @@ pub fn analyze_data(
                 t0 = estimate(t0_value, t0_se, line.degrees_of_freedom);
                 t0_refined = true;
             }
-            Err(message) => warnings.push(warn(WarningCode::OnsetNotRefined, message)),
+            Err(message) => {
+                warnings.push(warn(WarningCode::OnsetNotRefined, message));
+                line = fit_line(
+                    &slice_window(time, current, a, b, 0.0),
+                    regressor_at(a),
+                    weighting,
+                    options.intercept,
+                )?;
+            }
         }
     }
     // The slope's variance with t0 free, relative to t0 fixed (1 when t0 was not refined).
@@ -1035,13 +1050,10 @@ pub fn analyze_data(
             ),
         ));
     }
-    let resid: Vec<f64> = (a..b)
-        .map(|i| {
-            let x = 1.0 / (time[i] - t0.value).sqrt();
-            current[i] - line.slope * x - line.intercept.unwrap_or(0.0)
-        })
-        .collect();
-    let switches = range_switches(&time[a..b], &resid);
+    let (w_time, w_current) = (&time[a..b], &current[a..b]);
+    let (s_fit, b_fit, t0_fit) = (line.slope, line.intercept.unwrap_or(0.0), t0.value);
+    let resid = move |i: usize| w_current[i] - s_fit / (w_time[i] - t0_fit).sqrt() - b_fit;
+    let switches = range_switches(w_time, &resid);
     if !switches.is_empty() {
         warnings.push(warn(
             WarningCode::RangeSwitching,

@@ -209,27 +209,39 @@ pub fn sandwich_covariance(
     let p = j.ncols();
     let jtj = j.transpose() * j;
     let inv = jtj.clone().try_inverse()?;
-    let mut middle = jtj.clone() * (1.0 - noise.c);
+    let mut middle = jtj * (1.0 - noise.c);
     if noise.c > 0.0 && noise.phi > 0.0 {
+        // Plain arrays in the loop: this runs once per row of a long Jacobian.
         let phi = noise.phi;
-        let mut h = nalgebra::DVector::<f64>::zeros(p);
-        let mut prev = nalgebra::DVector::<f64>::zeros(p);
-        let mut m = nalgebra::DMatrix::<f64>::zeros(p, p);
+        let mut h = vec![0.0; p];
+        let mut prev = vec![0.0; p];
+        let mut z = vec![0.0; p];
+        let mut m = vec![0.0; p * p];
         for i in 0..j.nrows() {
-            let z = j.row(i).transpose();
-            if i > 0 {
-                h = (&h + &prev) * phi;
+            for c in 0..p {
+                z[c] = j[(i, c)];
             }
-            m += &z * z.transpose() + &z * h.transpose() + &h * z.transpose();
-            prev = z;
+            if i > 0 {
+                for c in 0..p {
+                    h[c] = phi * (h[c] + prev[c]);
+                }
+            }
+            for r in 0..p {
+                for c in 0..p {
+                    m[r * p + c] += z[r] * z[c] + z[r] * h[c] + h[r] * z[c];
+                }
+            }
+            prev.copy_from_slice(&z);
         }
-        middle += m * noise.c;
+        middle += nalgebra::DMatrix::from_row_slice(p, p, &m) * noise.c;
     }
     Some(&inv * middle * &inv * s2)
 }
 
 /// Lags of the residual autocorrelation used for the noise model.
 const LAGS: usize = 10;
+/// Residuals per thread used for the autocorrelation.
+const LAG_POINTS: usize = 250_000;
 
 /// The points of a window: times (s, after the step), currents (A, faradaic sign positive).
 #[derive(Debug, Clone, Copy)]
@@ -288,6 +300,12 @@ fn weight(w: Weighting, win: &Window<'_>, i: usize) -> f64 {
             }
         }
     }
+}
+
+/// Runs `f` on contiguous index ranges of `0..n`, one per core for long ranges, on scoped
+/// threads; results in order.
+pub(crate) fn chunked_ranges<T: Send>(n: usize, f: impl Fn(usize, usize) -> T + Sync) -> Vec<T> {
+    chunked(n, f)
 }
 
 /// Runs `f` on up to `parts` contiguous index ranges of `0..n` on scoped threads, in order.
@@ -356,44 +374,66 @@ pub fn fit_line(
     let x_at = |i| regressor(regressor_kind, t, t0, i);
     let w_at = |i| weight(weighting, win, i);
 
-    // Pass 1: weighted means.
-    let sums = chunked(n, |a, b| {
-        let (mut sw, mut swx, mut swy) = (0.0, 0.0, 0.0);
-        for i in a..b {
-            let w = w_at(i);
-            sw += w;
-            swx += w * x_at(i);
-            swy += w * y[i];
-        }
-        [sw, swx, swy]
-    });
-    let [sw, swx, swy] = sum_arrays(&sums);
-    if !(sw > 0.0) {
-        return Err(FitError::InvalidWeight { row: 0, weight: sw });
+    // One pass for the moments, on data shifted by means taken from a strided sample: with the
+    // shift close to the mean, the shifted sums give the centred moments without the
+    // cancellation of raw sums (T. F. Chan, G. H. Golub & R. J. LeVeque, Amer. Statist. 37
+    // (1983) 242, "shifted data").
+    let stride = (n / 4096).max(1);
+    let (mut c0, mut cx, mut cy) = (0.0, 0.0, 0.0);
+    for i in (0..n).step_by(stride) {
+        let w = w_at(i);
+        c0 += w;
+        cx += w * x_at(i);
+        cy += w * y[i];
     }
-    let (xm, ym) = if intercept {
-        (swx / sw, swy / sw)
+    let (kx, ky) = if intercept && c0 > 0.0 {
+        (cx / c0, cy / c0)
     } else {
         (0.0, 0.0)
     };
-
-    // Pass 2: centred (or, without intercept, raw) second moments.
-    let moments = chunked(n, |a, b| {
-        let mut m = [0.0; 6];
+    let raw = chunked(n, |a, b| {
+        // Σw, Σw·u, Σw·v, Σw·u², Σw·u·v, Σw·v², Σw², Σw²·u, Σw²·u² with u = x − kx, v = y − ky.
+        let mut m = [0.0; 9];
         for i in a..b {
             let w = w_at(i);
-            let dx = x_at(i) - xm;
-            let dy = y[i] - ym;
-            m[0] += w * dx * dx;
-            m[1] += w * dx * dy;
-            m[2] += w * dy * dy;
-            m[3] += w * w;
-            m[4] += w * w * dx;
-            m[5] += w * w * dx * dx;
+            let u = x_at(i) - kx;
+            let v = y[i] - ky;
+            let wu = w * u;
+            m[0] += w;
+            m[1] += wu;
+            m[2] += w * v;
+            m[3] += wu * u;
+            m[4] += wu * v;
+            m[5] += w * v * v;
+            m[6] += w * w;
+            m[7] += w * wu;
+            m[8] += wu * wu;
         }
         m
     });
-    let [sxx, sxy, syy, _sww, _swwx, _swwxx] = sum_arrays(&moments);
+    let [sw, su, sv, suu, suv, svv, sw2, sw2u, sw2uu] = sum_arrays(&raw);
+    if !(sw > 0.0) {
+        return Err(FitError::InvalidWeight { row: 0, weight: sw });
+    }
+    // Centre exactly: x̄ = kx + Σwu/Σw, and the moments about x̄ follow from those about kx.
+    let (xm, ym, moments) = if intercept {
+        let (du, dv) = (su / sw, sv / sw);
+        (
+            kx + du,
+            ky + dv,
+            [[
+                suu - su * du,
+                suv - su * dv,
+                svv - sv * dv,
+                sw2,
+                sw2u - sw2 * du,
+                sw2uu - 2.0 * sw2u * du + sw2 * du * du,
+            ]],
+        )
+    } else {
+        (0.0, 0.0, [[suu, suv, svv, sw2, sw2u, sw2uu]])
+    };
+    let [sxx, sxy, syy, sww, swwx, swwxx] = sum_arrays(&moments);
     if !(sxx > 0.0) {
         return Err(FitError::RankDeficient {
             column: 0,
@@ -405,52 +445,69 @@ pub fn fit_line(
     let slope = sxy / sxx;
     let icept = intercept.then_some(ym - slope * xm);
 
-    // Pass 3: residual diagnostics.
+    // Pass 3: residual diagnostics. With equal weights the residual sum of squares follows
+    // from the centred moments, RSS = Syy − Sxy²/Sxx, so the residuals themselves are only
+    // visited for the autocorrelation, the Durbin–Watson statistic and the runs test, on the
+    // first LAG_POINTS of each thread's part (all of them for windows up to that size). The
+    // moment formula loses digits only when the fit is near perfect (RSS < 10⁻⁸·Syy); then,
+    // and for design weights, every residual is visited.
+    let moment_rss = (syy - sxy * sxy / sxx).max(0.0);
+    let full = weighting != Weighting::Ordinary || moment_rss < 1e-8 * syy;
     let resid = |i: usize| y[i] - icept.unwrap_or(0.0) - slope * x_at(i);
     let diag = chunked(n, |a, b| {
         let mut d = ResidualSums::default();
-        let mut prev = if a > 0 { Some(resid(a - 1)) } else { None };
-        // The last LAGS residuals, newest at [i % LAGS].
-        let mut ring = [0.0; LAGS];
-        for (k, slot) in ring.iter_mut().enumerate().take(a.min(LAGS)) {
-            // Residuals a−1−k for the first lags of this part.
+        let mut prev = if a > 0 { resid(a - 1) } else { f64::NAN };
+        // The last LAGS residuals, newest first: recent[k − 1] is residual i − k.
+        let mut recent = [0.0; LAGS];
+        for (k, slot) in recent.iter_mut().enumerate().take(a.min(LAGS)) {
             *slot = resid(a - 1 - k);
         }
-        // Rotate so that ring[(i − 1 − k) % LAGS] holds residual i − 1 − k.
-        let mut ordered = [0.0; LAGS];
-        for k in 0..a.min(LAGS) {
-            ordered[(a - 1 - k) % LAGS] = ring[k];
-        }
-        let mut ring = ordered;
-        for i in a..b {
+        let lag_end = b.min(a + LAG_POINTS);
+        let end = if full { b } else { lag_end };
+        for i in a..end {
             let r = resid(i);
-            for k in 1..=LAGS.min(i) {
-                d.lags[k - 1] += r * ring[(i - k) % LAGS];
-            }
-            ring[i % LAGS] = r;
-            d.rr += r * r;
-            d.wrr += w_at(i) * r * r;
-            if let Some(q) = prev {
-                d.lag += r * q;
-                d.diff += (r - q) * (r - q);
-                if r != 0.0 && q != 0.0 && (r > 0.0) != (q > 0.0) {
-                    d.changes += 1;
+            if i < lag_end {
+                // Before the first LAGS residuals the missing ones are zero and add nothing.
+                for k in 0..LAGS {
+                    d.lags[k] += r * recent[k];
                 }
+                d.lag_rr += r * r;
+                recent.copy_within(0..LAGS - 1, 1);
+                recent[0] = r;
+                if !prev.is_nan() {
+                    let q = prev;
+                    d.lag += r * q;
+                    d.diff += (r - q) * (r - q);
+                    d.changes += u64::from(r != 0.0 && q != 0.0 && (r > 0.0) != (q > 0.0));
+                }
+                d.pos += u64::from(r > 0.0);
+                d.neg += u64::from(r < 0.0);
+                prev = r;
             }
-            if r > 0.0 {
-                d.pos += 1;
-            } else if r < 0.0 {
-                d.neg += 1;
+            if full {
+                d.rr += r * r;
+                d.wrr += w_at(i) * r * r;
             }
-            prev = Some(r);
         }
         d
     });
-    let d = diag.iter().fold(ResidualSums::default(), ResidualSums::add);
+    let mut d = diag.iter().fold(ResidualSums::default(), ResidualSums::add);
+    if !full {
+        d.rr = moment_rss;
+        d.wrr = moment_rss;
+    }
     let dof_plain = (n - p) as f64;
     let s2 = d.rr / dof_plain;
-    let rho = if d.rr > 0.0 { d.lag / d.rr } else { 0.0 };
-    let dw = if d.rr > 0.0 { d.diff / d.rr } else { f64::NAN };
+    let rho = if d.lag_rr > 0.0 {
+        d.lag / d.lag_rr
+    } else {
+        0.0
+    };
+    let dw = if d.lag_rr > 0.0 {
+        d.diff / d.lag_rr
+    } else {
+        f64::NAN
+    };
     let runs_z = runs_test_z(d.changes + 1, d.pos, d.neg);
     let r_squared = if intercept {
         1.0 - d.wrr / syy
@@ -459,12 +516,12 @@ pub fn fit_line(
     };
 
     // Covariance: sandwich with the AR(1) middle, once with φ = 0 and once with φ̂.
-    let rho_k: Vec<f64> = if d.rr > 0.0 {
-        d.lags.iter().map(|l| l / d.rr).collect()
+    let rho_k: Vec<f64> = if d.lag_rr > 0.0 {
+        d.lags.iter().map(|l| l / d.lag_rr).collect()
     } else {
         vec![0.0; LAGS]
     };
-    let noise = NoiseModel::from_autocorrelation(&rho_k, n);
+    let noise = NoiseModel::from_autocorrelation(&rho_k, n.min(LAG_POINTS * 8));
     let phi = noise.phi;
     let middle = |phi: f64| -> [f64; 3] {
         // z = w·[1, x̃] (with intercept) or w·[x] (without); sum z zᵀ φ^|i−j|.
@@ -523,7 +580,12 @@ pub fn fit_line(
             vec![vec![s2 * m[0] / (sxx * sxx)]]
         }
     };
-    let m0 = middle(0.0);
+    // The white-noise middle Σ zzᵀ is already in the second moments.
+    let m0 = if intercept {
+        [sww, swwx, swwxx]
+    } else {
+        [swwxx, 0.0, 0.0]
+    };
     let covariance_uncorrected = cov_from(m0);
     let covariance = if noise.c > 0.0 && phi > 0.0 {
         let mp = middle(phi);
@@ -558,6 +620,7 @@ pub fn fit_line(
 #[derive(Debug, Default, Clone, Copy)]
 struct ResidualSums {
     lags: [f64; LAGS],
+    lag_rr: f64,
     rr: f64,
     wrr: f64,
     lag: f64,
@@ -575,6 +638,7 @@ impl ResidualSums {
         }
         ResidualSums {
             lags,
+            lag_rr: self.lag_rr + o.lag_rr,
             rr: self.rr + o.rr,
             wrr: self.wrr + o.wrr,
             lag: self.lag + o.lag,

@@ -310,13 +310,11 @@ pub(crate) fn plateau_check(
 ) -> PlateauCheck {
     let tt = |m: usize| time_s[m] - t0;
     let start = time_s.partition_point(|&t| t < t_from);
-    let mut bin_time_s = Vec::new();
-    let mut bin_value = Vec::new();
-    let mut bin_std_error = Vec::new();
-    let mut bin_start_s = Vec::new();
     let per_decade = 10.0;
-    let mut i = start;
     let n = time_s.len();
+    // Bin edges first (cheap), then the sums over the points, split across threads.
+    let mut edges = vec![start];
+    let mut i = start;
     while i < n {
         let edge = time_s[i] * 10f64.powf(1.0 / per_decade);
         let mut j = time_s[i..].partition_point(|&t| t < edge) + i;
@@ -324,23 +322,45 @@ pub(crate) fn plateau_check(
         if n - j < 8 {
             j = n;
         }
-        let k = (j - i) as f64;
-        let (mut sy, mut slt) = (0.0, 0.0);
-        for m in i..j {
-            sy += current_a[m] * tt(m).sqrt();
-            slt += tt(m).ln();
-        }
-        let mean = sy / k;
-        // The current's noise, scaled by √t into I·√t, averaged over k correlated samples.
-        let t_mid = (slt / k).exp();
-        let se = noise_sd_a * t_mid.sqrt() * (noise.mean_variance_factor(j - i) / k).sqrt();
-        bin_time_s.push(t_mid);
-        bin_value.push(mean);
-        bin_std_error.push(se);
-        bin_start_s.push(time_s[i]);
+        edges.push(j);
         i = j;
     }
-    let nb = bin_value.len();
+    let nb = edges.len() - 1;
+    let partial = crate::regression::chunked_ranges(n - start, |a, b| {
+        let (a, b) = (a + start, b + start);
+        let mut sums = vec![0.0; nb];
+        let mut k = edges.partition_point(|&e| e <= a).saturating_sub(1);
+        for m in a..b {
+            while m >= edges[k + 1] {
+                k += 1;
+            }
+            sums[k] += current_a[m] * tt(m).sqrt();
+        }
+        sums
+    });
+    let mut sums = vec![0.0; nb];
+    for part in partial {
+        for (s, v) in sums.iter_mut().zip(part) {
+            *s += v;
+        }
+    }
+    let mut bin_time_s = Vec::with_capacity(nb);
+    let mut bin_value = Vec::with_capacity(nb);
+    let mut bin_std_error = Vec::with_capacity(nb);
+    let mut bin_start_s = Vec::with_capacity(nb);
+    for k in 0..nb {
+        let (i, j) = (edges[k], edges[k + 1]);
+        let count = (j - i) as f64;
+        // The current's noise, scaled by √t into I·√t, averaged over correlated samples; the
+        // bin's time is the geometric mean of its ends.
+        let t_mid = (tt(i) * tt(j - 1)).sqrt();
+        let se = noise_sd_a * t_mid.sqrt() * (noise.mean_variance_factor(j - i) / count).sqrt();
+        bin_time_s.push(t_mid);
+        bin_value.push(sums[k] / count);
+        bin_std_error.push(se);
+        bin_start_s.push(time_s[i]);
+    }
+
     let mut bin_z = vec![f64::NAN; nb];
     let reference = 4;
     for k in reference..nb {
@@ -425,17 +445,19 @@ fn plateau_predict(t: &[f64], y: &[f64], se: &[f64], at: f64, intercept: bool) -
 }
 
 /// Level shifts that look like current-range switching: a jump between neighbouring residuals
-/// far above their sample-to-sample scatter that persists (the means of the five residuals on
-/// each side differ by it too). Returns the times of the first sample after each jump.
-pub(crate) fn range_switches(time_s: &[f64], residual: &[f64]) -> Vec<f64> {
-    let n = residual.len();
+/// far above their sample-to-sample scatter (12 robust standard deviations) that persists (the
+/// means of the five residuals on each side differ by more than 60 % of it, in its direction).
+/// `residual(i)` gives the residual of sample i of `time_s`. Returns the times of the first
+/// sample after each jump.
+pub(crate) fn range_switches(time_s: &[f64], residual: &(dyn Fn(usize) -> f64 + Sync)) -> Vec<f64> {
+    let n = time_s.len();
     if n < 20 {
         return Vec::new();
     }
     let stride = (n / 200_000).max(1);
     let mut d: Vec<f64> = (1..n)
         .step_by(stride)
-        .map(|i| (residual[i] - residual[i - 1]).abs())
+        .map(|i| (residual(i) - residual(i - 1)).abs())
         .collect();
     let mid = d.len() / 2;
     let mad = *d.select_nth_unstable_by(mid, f64::total_cmp).1;
@@ -443,20 +465,34 @@ pub(crate) fn range_switches(time_s: &[f64], residual: &[f64]) -> Vec<f64> {
     if !(sigma > 0.0) {
         return Vec::new();
     }
-    let mut out = Vec::new();
-    let mut i = 5;
-    while i + 5 < n {
-        let jump = residual[i] - residual[i - 1];
-        if jump.abs() > 12.0 * sigma {
-            let before = residual[i - 5..i].iter().sum::<f64>() / 5.0;
-            let after = residual[i..i + 5].iter().sum::<f64>() / 5.0;
-            if (after - before).abs() > 0.6 * jump.abs() && (after - before) * jump > 0.0 {
-                out.push(time_s[i]);
-                i += 5;
-                continue;
-            }
+    let found = crate::regression::chunked_ranges(n, |a, b| {
+        let mut out = Vec::new();
+        let start = a.max(5);
+        let end = b.min(n - 5);
+        if start >= end {
+            return out;
         }
-        i += 1;
-    }
-    out
+        let mut prev = residual(start - 1);
+        let mut i = start;
+        while i < end {
+            let r = residual(i);
+            let jump = r - prev;
+            prev = r;
+            if jump.abs() > 12.0 * sigma {
+                let before = (i - 5..i).map(residual).sum::<f64>() / 5.0;
+                let after = (i..i + 5).map(residual).sum::<f64>() / 5.0;
+                if (after - before).abs() > 0.6 * jump.abs() && (after - before) * jump > 0.0 {
+                    out.push(time_s[i]);
+                    i += 5;
+                    if i < end {
+                        prev = residual(i - 1);
+                    }
+                    continue;
+                }
+            }
+            i += 1;
+        }
+        out
+    });
+    found.into_iter().flatten().collect()
 }
