@@ -4,8 +4,10 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod fit;
 mod import_args;
 mod inspect;
+mod quantity;
 
 /// Diffusion coefficients from potential-step chronoamperometry.
 #[derive(Debug, Parser)]
@@ -20,12 +22,16 @@ enum Command {
     /// Show what was found in each file: dialect, columns and units, rows, time span, step
     /// onset, sign, segments, baseline and warnings.
     Inspect(inspect::Args),
+    /// Fit the planar Cottrell model to each file and report D (or n·A·C) with its interval,
+    /// the window and its reasons, the uncertainty budget and warnings.
+    Fit(fit::Args),
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Inspect(args) => inspect::run(&args),
+        Command::Fit(args) => fit::run(&args),
     };
     match result {
         Ok(code) => code,
