@@ -1,5 +1,6 @@
 //! End-to-end tests: the built `diffusor` binary on the demo data and on deliberately bad files.
 
+mod compare;
 mod fit;
 mod inspect;
 

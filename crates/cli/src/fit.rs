@@ -88,7 +88,23 @@ fn bound(text: &str) -> Result<BoundChoice, String> {
 }
 
 impl Args {
-    fn cell(&self) -> anyhow::Result<Cell> {
+    /// The files named.
+    pub fn files(&self) -> &[PathBuf] {
+        &self.files
+    }
+
+    /// The importer's options.
+    pub fn import(&self) -> &ImportArgs {
+        &self.import
+    }
+
+    /// Whether JSON was asked for.
+    pub fn json_output(&self) -> bool {
+        self.json
+    }
+
+    /// The validated cell.
+    pub fn cell(&self) -> anyhow::Result<Cell> {
         let parse = |text: &Option<String>, kind, what: &str| -> anyhow::Result<_> {
             text.as_deref()
                 .map(|t| quantity::parse(t, kind))
@@ -117,7 +133,8 @@ impl Args {
         Ok(cell)
     }
 
-    fn options(&self) -> anyhow::Result<PlanarOptions> {
+    /// The validated fit options.
+    pub fn options(&self) -> anyhow::Result<PlanarOptions> {
         let mut o = PlanarOptions {
             intercept: !self.no_intercept,
             refine_t0: !self.fixed_onset,

@@ -4,6 +4,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod compare;
 mod fit;
 mod import_args;
 mod inspect;
@@ -25,6 +26,9 @@ enum Command {
     /// Fit the planar Cottrell model to each file and report D (or n·A·C) with its interval,
     /// the window and its reasons, the uncertainty budget and warnings.
     Fit(fit::Args),
+    /// Fit every file as `fit` does and compare the runs as replicates: mean, SD, RSD, 95 %
+    /// interval, weighted mean with the Birge ratio, and Grubbs' outlier test naming the run.
+    Compare(fit::Args),
 }
 
 fn main() -> ExitCode {
@@ -32,6 +36,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Inspect(args) => inspect::run(&args),
         Command::Fit(args) => fit::run(&args),
+        Command::Compare(args) => compare::run(&args),
     };
     match result {
         Ok(code) => code,

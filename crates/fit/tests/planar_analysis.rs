@@ -464,3 +464,51 @@ fn baseline_constant_and_blank_backgrounds() {
     }
     assert!(base.background.contains("baseline"));
 }
+
+#[test]
+fn window_sensitivity_is_flat_for_pure_cottrell_and_not_with_charging_left_in() {
+    // Pure Cottrell: D hardly moves with either bound.
+    let time = grid(1e-3, 8000);
+    let current = noisy(&time, 5e-9, 17, cottrell);
+    let r = analyze_data(
+        &time,
+        &current,
+        &cell(),
+        &PlanarOptions::default(),
+        "none".into(),
+        Vec::new(),
+    )
+    .expect("ok");
+    let s = r.sensitivity.expect("sensitivity");
+    assert_eq!(s.quantity, "D");
+    assert!(
+        s.lower.len() >= 10 && s.upper.len() >= 10,
+        "{} {}",
+        s.lower.len(),
+        s.upper.len()
+    );
+    for p in s.lower.iter().chain(&s.upper) {
+        assert!((p.value - D).abs() / D < 0.01, "{p:?}");
+    }
+    // With a charging current the lowest lower bounds (inside the charging region) give a
+    // visibly different D: the curve shows the reviewer where the choice matters.
+    let (ru, cdl, de) = (150.0, 20e-6, 0.5); // τ = 3 ms
+    let current = noisy(&time, 5e-9, 18, |t| {
+        cottrell(t) + de / ru * (-t / (ru * cdl)).exp()
+    });
+    let r = analyze_data(
+        &time,
+        &current,
+        &cell(),
+        &PlanarOptions::default(),
+        "none".into(),
+        Vec::new(),
+    )
+    .expect("ok");
+    let s = r.sensitivity.expect("sensitivity");
+    let first = &s.lower[0];
+    let last = s.lower.last().expect("points");
+    assert!(first.bound_s < 5e-3 && last.bound_s > 0.1);
+    assert!((first.value - D).abs() / D > 0.05, "{first:?}");
+    assert!((last.value - D).abs() / D < 0.01, "{last:?}");
+}

@@ -1,0 +1,209 @@
+//! `diffusor compare`: the replicate view — every run's D with its interval, then the mean, SD,
+//! RSD, 95 % interval, weighted mean with the Birge ratio and Grubbs' outlier test.
+
+use std::fmt::Write as _;
+use std::process::ExitCode;
+
+use diffusor_fit::replicates::{GrubbsOutcome, ReplicateSummary, RunEstimate, summarize};
+use serde_json::json;
+
+use crate::fit::{self, Run};
+
+/// Which result the runs are compared on, with its reporting unit.
+struct Target {
+    name: &'static str,
+    unit: &'static str,
+    scale: f64,
+}
+
+fn target(runs: &[Run]) -> Target {
+    let inverse = runs
+        .iter()
+        .filter_map(|r| r.result.as_ref().ok())
+        .any(|r| r.mode == "inverse");
+    if inverse {
+        Target {
+            name: "n·A·C",
+            unit: "mol/cm",
+            scale: 1e-2,
+        }
+    } else {
+        Target {
+            name: "D",
+            unit: "cm²/s",
+            scale: 1e4,
+        }
+    }
+}
+
+fn estimates(runs: &[Run], t: &Target) -> Vec<RunEstimate> {
+    runs.iter()
+        .filter_map(|r| {
+            let res = r.result.as_ref().ok()?;
+            let e = if t.name == "D" {
+                res.diffusion_m2_s?
+            } else {
+                res.nac_mol_m?
+            };
+            Some(RunEstimate {
+                label: r.file.clone(),
+                value: e.value * t.scale,
+                std_error: e.std_error * t.scale,
+            })
+        })
+        .collect()
+}
+
+pub fn run(args: &fit::Args) -> anyhow::Result<ExitCode> {
+    let cell = args.cell()?;
+    let options = args.options()?;
+    let runs = fit::fit_all(args.files(), args.import(), &cell, &options);
+    let failed = runs.iter().filter(|r| r.result.is_err()).count();
+    let t = target(&runs);
+    let ests = estimates(&runs, &t);
+    let summary = summarize(&ests);
+    if args.json_output() {
+        let replicates = match &summary {
+            Ok(s) => json!({"quantity": t.name, "unit": t.unit, "summary": s}),
+            Err(e) => json!({"quantity": t.name, "unit": t.unit, "error": e.to_string()}),
+        };
+        let doc = json!({
+            "schema": "diffusor.fit/1",
+            "version": env!("CARGO_PKG_VERSION"),
+            "runs": runs.iter().map(|r| fit::run_json(r, &cell)).collect::<Vec<_>>(),
+            "replicates": replicates,
+        });
+        println!("{}", serde_json::to_string_pretty(&doc)?);
+    } else {
+        let mut out = String::new();
+        let width = runs
+            .iter()
+            .map(|r| r.file.chars().count())
+            .max()
+            .unwrap_or(4)
+            .max(4);
+        let _ = writeln!(
+            out,
+            "{:<width$}  {:>12}  {:>10}  {:>27}",
+            "run",
+            format!("{} ({})", t.name, t.unit),
+            "std error",
+            "95 % interval"
+        );
+        for r in &runs {
+            match &r.result {
+                Ok(res) => {
+                    let e = if t.name == "D" {
+                        res.diffusion_m2_s
+                    } else {
+                        res.nac_mol_m
+                    };
+                    match e {
+                        Some(e) => {
+                            let _ = writeln!(
+                                out,
+                                "{:<width$}  {:>12.5e}  {:>10.2e}  {:>12.5e} … {:>12.5e}",
+                                r.file,
+                                e.value * t.scale,
+                                e.std_error * t.scale,
+                                e.ci95[0] * t.scale,
+                                e.ci95[1] * t.scale
+                            );
+                        }
+                        None => {
+                            let _ = writeln!(
+                                out,
+                                "{:<width$}  (no {}: enter the area and concentration)",
+                                r.file, t.name
+                            );
+                        }
+                    }
+                }
+                Err(e) => {
+                    let _ = writeln!(out, "{:<width$}  error: {e}", r.file);
+                }
+            }
+        }
+        out.push('\n');
+        match &summary {
+            Ok(s) => summary_text(&mut out, s, &t),
+            Err(e) => {
+                let _ = writeln!(out, "no replicate statistics: {e}");
+            }
+        }
+        print!("{out}");
+    }
+    if failed > 0 {
+        eprintln!(
+            "diffusor: {failed} of {} file{} could not be fitted",
+            runs.len(),
+            if runs.len() == 1 { "" } else { "s" }
+        );
+    }
+    Ok(if failed > 0 {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    })
+}
+
+fn summary_text(out: &mut String, s: &ReplicateSummary, t: &Target) {
+    let u = t.unit;
+    let _ = writeln!(out, "replicates       {} runs", s.n);
+    let _ = writeln!(
+        out,
+        "mean             {:.5e} {u}, SD {:.3e} {u}{}",
+        s.mean,
+        s.sd,
+        s.rsd_percent
+            .map(|r| format!(", RSD {r:.2} %"))
+            .unwrap_or_default()
+    );
+    let _ = writeln!(
+        out,
+        "95 % interval    {:.5e} … {:.5e} {u} (Student's t, {} degrees of freedom; standard error {:.2e})",
+        s.ci95.lower, s.ci95.upper, s.ci95.dof, s.sem
+    );
+    match &s.weighted {
+        Some(w) => {
+            let _ = writeln!(
+                out,
+                "weighted mean    {:.5e} {u} ± {:.2e} (internal){}",
+                w.mean,
+                w.internal_std_error,
+                w.external_std_error
+                    .map(|e| format!(", ± {e:.2e} scaled by the Birge ratio"))
+                    .unwrap_or_default()
+            );
+            let _ = writeln!(
+                out,
+                "Birge ratio      {:.2} (χ² = {:.3} on {} dof, p = {:.2e}): {}",
+                w.birge_ratio, w.chi_squared, w.dof, w.p_value, w.statement
+            );
+        }
+        None => {
+            if let Some(o) = &s.weighted_omitted {
+                let _ = writeln!(out, "weighted mean    not computed: {}", o.reason);
+            }
+        }
+    }
+    if let Some(f) = &s.fit_vs_scatter {
+        let _ = writeln!(
+            out,
+            "fit vs scatter   the runs' own standard errors (RMS {:.2e}) against their SD {:.2e}: scatter is {:.1}× the fit uncertainty",
+            f.rms_std_error, f.sd, f.scatter_to_fit_ratio
+        );
+    }
+    match &s.grubbs {
+        GrubbsOutcome::Tested(g) => {
+            let _ = writeln!(
+                out,
+                "Grubbs' test     G = {:.3} against {:.3} at α = {}: {}",
+                g.statistic, g.critical_value, g.alpha, g.statement
+            );
+        }
+        GrubbsOutcome::NotApplicable { reason } => {
+            let _ = writeln!(out, "Grubbs' test     not applicable: {reason}");
+        }
+    }
+}
