@@ -339,6 +339,28 @@ pub struct PlanarResult {
     pub warnings: Vec<FitWarning>,
 }
 
+impl PlanarResult {
+    fn param(&self, symbol: &str) -> Option<f64> {
+        self.params
+            .iter()
+            .find(|p| p.symbol == symbol)
+            .map(|p| p.estimate.value)
+    }
+
+    /// The fitted current at `t_s` seconds after the step (the step's own time axis, before
+    /// the t0 shift), in A with the faradaic sign positive; NaN at or before the fitted onset.
+    pub fn predict_a(&self, t_s: f64) -> f64 {
+        let s = self.param("S").unwrap_or(f64::NAN);
+        let b = self.param("b").unwrap_or(0.0);
+        let dt = t_s - self.t0.value;
+        if dt > 0.0 {
+            s / dt.sqrt() + b
+        } else {
+            f64::NAN
+        }
+    }
+}
+
 /// Why the analysis could not be done.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]

@@ -512,3 +512,24 @@ fn window_sensitivity_is_flat_for_pure_cottrell_and_not_with_charging_left_in() 
     assert!((first.value - D).abs() / D > 0.05, "{first:?}");
     assert!((last.value - D).abs() / D < 0.01, "{last:?}");
 }
+
+#[test]
+fn predict_reproduces_the_fitted_line() {
+    let time = grid(1e-3, 5000);
+    let current = noisy(&time, 5e-9, 19, cottrell);
+    let r = analyze_data(
+        &time,
+        &current,
+        &cell(),
+        &options(),
+        "none".into(),
+        Vec::new(),
+    )
+    .expect("ok");
+    // The fit of noisy Cottrell data predicts the noise-free current to well within 0.1 %.
+    for t in [0.01, 0.1, 1.0, 4.0] {
+        let rel = (r.predict_a(t) - cottrell(t)).abs() / cottrell(t);
+        assert!(rel < 1e-3, "t = {t}: {rel}");
+    }
+    assert!(r.predict_a(r.t0.value - 1e-3).is_nan());
+}
