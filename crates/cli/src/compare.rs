@@ -58,7 +58,6 @@ pub fn run(args: &fit::Args) -> anyhow::Result<ExitCode> {
     let cell = args.cell()?;
     let options = args.options()?;
     let runs = fit::fit_all(args.files(), args.import(), &cell, &options);
-    let failed = runs.iter().filter(|r| r.result.is_err()).count();
     let t = target(&runs);
     let ests = estimates(&runs, &t);
     let summary = summarize(&ests);
@@ -133,18 +132,7 @@ pub fn run(args: &fit::Args) -> anyhow::Result<ExitCode> {
         }
         print!("{out}");
     }
-    if failed > 0 {
-        eprintln!(
-            "diffusor: {failed} of {} file{} could not be fitted",
-            runs.len(),
-            if runs.len() == 1 { "" } else { "s" }
-        );
-    }
-    Ok(if failed > 0 {
-        ExitCode::from(1)
-    } else {
-        ExitCode::SUCCESS
-    })
+    Ok(fit::exit_status(&runs))
 }
 
 fn summary_text(out: &mut String, s: &ReplicateSummary, t: &Target) {

@@ -300,7 +300,6 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
     let cell = args.cell()?;
     let options = args.options()?;
     let runs = fit_all(&args.files, &args.import, &cell, &options);
-    let failed = runs.iter().filter(|r| r.result.is_err()).count();
     if args.json {
         let doc = json!({
             "schema": "diffusor.fit/1",
@@ -350,18 +349,21 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
     } else {
         print!("{}", table(&runs));
     }
-    if failed > 0 {
-        eprintln!(
-            "diffusor: {failed} of {} file{} could not be fitted",
-            runs.len(),
-            if runs.len() == 1 { "" } else { "s" }
-        );
+    Ok(exit_status(&runs))
+}
+
+/// Says on stderr how many files failed; exit status 1 when any did, else 0.
+pub fn exit_status(runs: &[Run]) -> ExitCode {
+    let failed = runs.iter().filter(|r| r.result.is_err()).count();
+    if failed == 0 {
+        return ExitCode::SUCCESS;
     }
-    Ok(if failed > 0 {
-        ExitCode::from(1)
-    } else {
-        ExitCode::SUCCESS
-    })
+    eprintln!(
+        "diffusor: {failed} of {} file{} could not be fitted",
+        runs.len(),
+        if runs.len() == 1 { "" } else { "s" }
+    );
+    ExitCode::from(1)
 }
 
 /// The readable table: one block per run.
