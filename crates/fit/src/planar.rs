@@ -382,13 +382,21 @@ pub enum AnalysisError {
         /// Upper bound, s.
         hi_s: f64,
     },
-    /// A given bound is not usable.
-    #[error("the window {lo_s} s to {hi_s} s is empty or inverted")]
+    /// The bounds leave no window.
+    #[error(
+        "the window would end at {} before it starts at {}: it ends {why}{hint}",
+        crate::fmt_s(*hi_s),
+        crate::fmt_s(*lo_s)
+    )]
     BadWindow {
         /// Lower bound, s.
         lo_s: f64,
         /// Upper bound, s.
         hi_s: f64,
+        /// Why the upper bound is where it is.
+        why: String,
+        /// What to do about it (may be empty).
+        hint: &'static str,
     },
     /// The blank does not cover the trace.
     #[error("the blank covers {from_s} s to {to_s} s, not the whole fitted range")]
@@ -759,6 +767,12 @@ pub fn analyze_data(
         return Err(AnalysisError::BadWindow {
             lo_s: lo.time_s,
             hi_s: hi.time_s,
+            why: hi.description.clone(),
+            hint: if matches!(hi.reason, BoundReason::EdgeDiffusion { .. }) {
+                "; edge diffusion dominates this electrode at these times, so the planar model does not apply — use the microdisk model"
+            } else {
+                ""
+            },
         });
     }
     let a = time.partition_point(|&t| t < lo.time_s);

@@ -533,3 +533,33 @@ fn predict_reproduces_the_fitted_line() {
     }
     assert!(r.predict_a(r.t0.value - 1e-3).is_nan());
 }
+
+#[test]
+fn a_microelectrode_is_refused_with_the_reason_and_what_to_use() {
+    // r = 5 µm: √(πDt)/r reaches 10 % at (0.1·r)²/(πD) = 0.11 ms, before the first sample.
+    let r_m = 5e-6;
+    let time = grid(1e-3, 2000);
+    let current = noisy(&time, 1e-12, 20, |t| {
+        cottrell_current_a(1.0, std::f64::consts::PI * r_m * r_m, CONC, D, t)
+    });
+    let cell = Cell {
+        radius_m: Some(Measured::exact(r_m)),
+        conc_mol_m3: Some(Measured::exact(CONC)),
+        ..Cell::default()
+    };
+    let err = analyze_data(
+        &time,
+        &current,
+        &cell,
+        &options(),
+        "none".into(),
+        Vec::new(),
+    )
+    .expect_err("refused");
+    let text = err.to_string();
+    assert!(matches!(err, AnalysisError::BadWindow { .. }), "{text}");
+    assert!(
+        text.contains("edge diffusion") && text.contains("microdisk model"),
+        "{text}"
+    );
+}
