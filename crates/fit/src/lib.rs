@@ -64,6 +64,7 @@ pub mod planar;
 pub mod regression;
 pub mod replicates;
 pub mod solver;
+pub mod special;
 pub mod window;
 
 pub use error::FitError;
