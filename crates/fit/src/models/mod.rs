@@ -1,4 +1,6 @@
 //! The published current–time laws Diffusor fits. Each states its equation, source and range of
 //! validity.
 
+pub mod common;
+pub mod kinetics;
 pub mod planar;
