@@ -4,3 +4,4 @@
 pub mod common;
 pub mod kinetics;
 pub mod planar;
+pub mod sphere;
