@@ -466,3 +466,38 @@ impl<G: Fn(f64, f64) -> (f64, f64)> LeastSquaresProblem for ScaledByNc<'_, G> {
         j
     }
 }
+/// The least-squares scale `k` of `model` against `y` (`y ≈ k·model`) and the residual sum of
+/// squares it leaves.
+pub(crate) fn best_scale(model: &[f64], y: &[f64]) -> (f64, f64) {
+    let mm: f64 = model.iter().map(|m| m * m).sum();
+    let my: f64 = model.iter().zip(y).map(|(m, y)| m * y).sum();
+    if !(mm > 0.0) {
+        return (0.0, f64::INFINITY);
+    }
+    let k = my / mm;
+    let rss = model
+        .iter()
+        .zip(y)
+        .map(|(m, y)| (y - k * m).powi(2))
+        .sum::<f64>();
+    (k, rss)
+}
+
+impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
+    /// Starting values: the best `D` on a log grid from 1e-14 to 1e-6 m²/s (40 per decade),
+    /// each with its least-squares `K`; then Levenberg–Marquardt from there.
+    pub fn solve(&self) -> Result<Solved, FitError> {
+        let fit_k = |d: f64| {
+            let g: Vec<f64> = self
+                .data
+                .time_s
+                .iter()
+                .map(|&t| (self.shape)(d, t).0)
+                .collect();
+            best_scale(&g, self.data.current_a)
+        };
+        let d0 = log_grid_min(1e-14, 1e-6, 320, |d| fit_k(d).1);
+        let k0 = fit_k(d0).0;
+        solve_with_noise(self, DVector::from_vec(vec![d0, k0]))
+    }
+}

@@ -3,5 +3,6 @@
 
 pub mod common;
 pub mod kinetics;
+pub mod microdisk;
 pub mod planar;
 pub mod sphere;
