@@ -1,6 +1,7 @@
 //! The published current–time laws Diffusor fits. Each states its equation, source and range of
 //! validity.
 
+pub mod anson;
 pub mod common;
 pub mod kinetics;
 pub mod microdisk;
