@@ -255,12 +255,27 @@ fn random_walk_covariance(
     x: &[f64],
     lo_s: f64,
 ) {
+    random_walk_covariance_for(line, time_s, current_a, x, lo_s, |t, m| {
+        m / (2.0 * t.sqrt())
+    });
+}
+
+/// [`random_walk_covariance`] for any regressor `x(t)`: `line_current(t, m)` is the current the
+/// line `Q = m·x(t) + q` implies, `m·dx/dt`.
+pub(crate) fn random_walk_covariance_for(
+    line: &mut crate::models::common::Solved,
+    time_s: &[f64],
+    current_a: &[f64],
+    x: &[f64],
+    lo_s: f64,
+    line_current: impl Fn(f64, f64) -> f64,
+) {
     let a = time_s.partition_point(|&t| t < lo_s);
     let b = a + x.len();
     let m = line.value(0);
-    // The current's own noise about the Anson line's derivative m/(2√t).
+    // The current's own noise about the line's derivative.
     let resid: Vec<f64> = (a..b)
-        .map(|k| current_a[k] - m / (2.0 * time_s[k].sqrt()))
+        .map(|k| current_a[k] - line_current(time_s[k], m))
         .collect();
     let mean = resid.iter().sum::<f64>() / resid.len() as f64;
     let s2 = resid.iter().map(|r| (r - mean).powi(2)).sum::<f64>() / (resid.len() - 2) as f64;

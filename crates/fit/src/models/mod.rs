@@ -3,6 +3,7 @@
 
 pub mod anson;
 pub mod common;
+pub mod double_step;
 pub mod kinetics;
 pub mod microdisk;
 pub mod planar;
