@@ -7,4 +7,5 @@ pub mod double_step;
 pub mod kinetics;
 pub mod microdisk;
 pub mod planar;
+pub mod slab;
 pub mod sphere;
