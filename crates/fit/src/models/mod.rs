@@ -4,6 +4,7 @@
 pub mod anson;
 pub mod common;
 pub mod double_step;
+pub mod edge;
 pub mod kinetics;
 pub mod microdisk;
 pub mod planar;
