@@ -2,6 +2,7 @@
 //! validity.
 
 pub mod anson;
+pub mod charging;
 pub mod common;
 pub mod double_step;
 pub mod edge;
