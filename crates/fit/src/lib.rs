@@ -58,6 +58,7 @@
 pub mod cell;
 pub mod constants;
 pub mod error;
+pub mod geometry;
 pub mod linalg;
 pub mod models;
 pub mod planar;
