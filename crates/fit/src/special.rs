@@ -4,6 +4,9 @@
 //! `exp(H²t)·erfc(H√t)` multiplies a huge and a tiny number once `H√t` exceeds about 26, where
 //! `erfc` underflows to zero and `exp` overflows; the scaled function stays finite and keeps full
 //! relative precision for every argument.
+//!
+//! Equation numbers of Abramowitz & Stegun (1964) are cited as remembered; the facts they stand
+//! for (series, asymptotics, reflection) are checked numerically in `tests/models_special.rs`.
 
 // Cody's coefficients are kept to the 18 digits he published, so that the source can be
 // compared with the paper digit for digit; the compiler rounds them to double precision.
@@ -139,7 +142,7 @@ pub fn erfcx(x: f64) -> f64 {
 }
 
 /// The derivative `d erfcx/dx = 2x·erfcx(x) − 2/√π` (from `d erfc/dx = −2/√π·exp(−x²)`,
-/// Abramowitz & Stegun 1964, eq. 7.1.19, and the product rule).
+/// Abramowitz & Stegun 1964, and the product rule).
 ///
 /// For large `x` the two terms nearly cancel (the derivative is about `−1/(x²√π)`); the
 /// difference then loses about `log₁₀(2x²)` digits, and beyond `x = 1e4` the asymptotic form

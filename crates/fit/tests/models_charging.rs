@@ -1,5 +1,5 @@
 //! Cottrell plus RC charging fitted jointly (Cottrell, Z. Phys. Chem. 42 (1903) 385; RC
-//! charging as in Bard & Faulkner, Electrochemical Methods, 2nd ed., 2001, §1.2.2): recovery of
+//! charging as in Bard & Faulkner, Electrochemical Methods, 2nd ed., 2001): recovery of
 //! D, Ru and Cdl from noisy synthetic transients that include the charging region.
 
 use diffusor_fit::constants::CM2_PER_S;

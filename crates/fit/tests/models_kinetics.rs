@@ -18,7 +18,7 @@ const D_M2_S: f64 = 7.2e-6 * CM2_PER_S;
 #[test]
 fn long_times_tend_to_cottrell_with_the_first_correction() {
     // For H√t ≫ 1, I = Cottrell·(1 − 1/(2H²t) + O((H²t)^-2)) (erfcx asymptotics, Abramowitz &
-    // Stegun 1964, eq. 7.1.23, in the kinetic current of Bard & Faulkner 2001, §5.5). The next
+    // Stegun 1964, eq. 7.1.23, in the kinetic current of Bard & Faulkner 2001). The next
     // term is 3/(4x⁴), so the relative difference must fall below 1/x⁴.
     let kf = 1e-4;
     let h = kf / D_M2_S.sqrt();
@@ -45,7 +45,7 @@ fn long_times_tend_to_cottrell_with_the_first_correction() {
 
 #[test]
 fn short_times_tend_to_the_kinetic_current() {
-    // For H√t ≪ 1, I = n·F·A·kf·C·(1 − 2H√t/√π + O(H²t)) (A&S 1964, eq. 7.1.6, same source).
+    // For H√t ≪ 1, I = n·F·A·kf·C·(1 − 2H√t/√π + O(H²t)) (A&S 1964, same source).
     let kf = 1e-4;
     let h = kf / D_M2_S.sqrt();
     for &x in &[1e-4, 1e-3, 1e-2] {
@@ -73,7 +73,7 @@ fn short_times_tend_to_the_kinetic_current() {
 #[test]
 fn quasi_reversible_long_time_current_is_cottrell_over_q() {
     // With kb = θ·kf and D_R = D_O, H = (kf + kb)/√D, and for H√t ≫ 1 the current tends to
-    // n·F·A·kf·C/(H√(πt)) = Cottrell·kf/(kf + kb) (Bard & Faulkner 2001, §5.5, the large-H√t
+    // n·F·A·kf·C/(H√(πt)) = Cottrell·kf/(kf + kb) (Bard & Faulkner 2001, the large-H√t
     // limit): the surface concentration settles at the Nernstian ratio.
     let kf = 1e-3;
     let back = BackReaction::QuasiReversible {

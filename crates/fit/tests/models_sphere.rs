@@ -15,7 +15,7 @@ const C: f64 = 2.0;
 
 #[test]
 fn short_times_are_cottrell_and_long_times_the_steady_state() {
-    // Bard & Faulkner 2001, §5.2.2: I → Cottrell for √(πDt) ≪ r₀ and → 4πn·F·D·C·r₀ (sphere)
+    // Bard & Faulkner 2001: I → Cottrell for √(πDt) ≪ r₀ and → 4πn·F·D·C·r₀ (sphere)
     // or 2πn·F·D·C·r₀ (hemisphere) for √(πDt) ≫ r₀. The relative excess over the limit is
     // exactly √(πDt)/r₀ resp. r₀/√(πDt) by the form of the equation.
     let area = 4.0 * std::f64::consts::PI * R0_M * R0_M;

@@ -3,7 +3,7 @@
 //!
 //! `I = S·t^-½ + b + (ΔE/Ru)·exp(−t/(Ru·Cdl))`, `S = n·F·A·C·√(D/π)` (Cottrell, Z. Phys. Chem.
 //! 42 (1903) 385, plus the RC charging of the double layer through the uncompensated
-//! resistance, A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., 2001, §1.2.2),
+//! resistance, A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., 2001),
 //! on the model [`crate::models::planar::CottrellCharging`].
 
 use nalgebra::DVector;
@@ -31,7 +31,7 @@ pub struct ChargingFit {
 }
 
 const EQUATION: &str = "I = S·t^-½ + b + (ΔE/Ru)·exp(−t/(Ru·Cdl)), S = n·F·A·C·√(D/π)";
-const SOURCE: &str = "F. G. Cottrell, Z. Phys. Chem. 42 (1903) 385; A. J. Bard & L. R. Faulkner, Electrochemical Methods, 2nd ed., Wiley 2001, §1.2.2 (RC charging)";
+const SOURCE: &str = "F. G. Cottrell, Z. Phys. Chem. 42 (1903) 385; A. J. Bard & L. R. Faulkner, Electrochemical Methods, 2nd ed., Wiley 2001 (RC charging)";
 const VALIDITY: &str = "planar semi-infinite diffusion at the diffusion limit; a single RC charging decay (ideal capacitor, constant Ru); the faradaic current itself is not delayed by Ru (true once t ≫ Ru·Cdl)";
 
 /// Fits Cottrell plus charging to every point of `data`. `nac` = `(n, A in m², C in mol/m³)`

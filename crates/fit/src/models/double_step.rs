@@ -3,8 +3,8 @@
 //!
 //! - Chronoamperometry (W. M. Schwarz & I. Shain, J. Phys. Chem. 69 (1965) 30): for a stable
 //!   product, the reverse current `I_r(t) = −n·F·A·C·√(D/π)·(1/√(t − τ) − 1/√t)` for t > τ
-//!   (in the form of A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., 2001,
-//!   §5.7), so `−I_r(2τ)/I_f(τ) = 1 − 1/√2 = 0.2929`. A smaller ratio means the product is lost
+//!   (in the form of A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., 2001),
+//!   so `−I_r(2τ)/I_f(τ) = 1 − 1/√2 = 0.2929`. A smaller ratio means the product is lost
 //!   (a following chemical reaction); the ratio is reported against that value.
 //! - Chronocoulometry (J. H. Christie, R. A. Osteryoung & F. C. Anson, J. Electroanal. Chem. 13
 //!   (1967) 236): with `Q_r(t) = Q(τ) − Q(t)` the charge returned after the reversal,
@@ -29,7 +29,7 @@ pub const SCHWARZ_SHAIN_RATIO: f64 = 1.0 - std::f64::consts::FRAC_1_SQRT_2;
 /// The reverse current of a double step at a planar electrode, in A (negative: opposite to the
 /// forward current), `t_since_reversal_s` after the reversal at `tau_s` (both s), for `n`,
 /// `area_m2`, `conc_mol_m3`, `d_m2_s`: `−n·F·A·C·√(D/π)·(1/√t′ − 1/√(t′ + τ))` (Schwarz & Shain
-/// 1965; Bard & Faulkner 2001, §5.7). Valid for a stable product, planar semi-infinite
+/// 1965; Bard & Faulkner 2001). Valid for a stable product, planar semi-infinite
 /// diffusion and both steps at the diffusion limit.
 pub fn reverse_current_a(
     n: f64,

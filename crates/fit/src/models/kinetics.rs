@@ -6,13 +6,13 @@
 //!
 //! `I(t) = n·F·A·kf·C·exp(H²t)·erfc(H√t)`,  `H = kf/√D_O + kb/√D_R`
 //!
-//! (A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., Wiley 2001, §5.5, for the
+//! (A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., Wiley 2001, for the
 //! step to a potential of finite rate; the irreversible case `kb = 0` goes back to the
 //! integral-equation treatment of P. Delahay, *New Instrumental Methods in Electrochemistry*,
 //! Interscience 1954). `exp(H²t)·erfc(H√t)` is evaluated as [`erfcx`] so that it stays finite for
 //! any `H√t`. The limits are Cottrell's current times `1 − 1/(2H²t)` for `H√t ≫ 1`
 //! (Abramowitz & Stegun 1964, eq. 7.1.23) and `n·F·A·kf·C·(1 − 2H√t/√π)` for `H√t ≪ 1`
-//! (Abramowitz & Stegun 1964, eq. 7.1.6).
+//! (Abramowitz & Stegun 1964).
 
 use nalgebra::{DMatrix, DVector};
 use serde::Serialize;
@@ -32,7 +32,7 @@ pub enum BackReaction {
     #[default]
     Irreversible,
     /// Quasi-reversible: `kb = θ·kf` with `θ = kb/kf` known (for Butler–Volmer kinetics
-    /// `θ = exp(n·F·(E − E°′)/(R·T))`, Bard & Faulkner 2001, §3.3), and `D_R = ρ·D_O` with the
+    /// `θ = exp(n·F·(E − E°′)/(R·T))`, Bard & Faulkner 2001), and `D_R = ρ·D_O` with the
     /// ratio `ρ` known, so `H = (kf/√D_O)·(1 + θ/√ρ)`.
     QuasiReversible {
         /// `kb/kf` at the stepped potential (dimensionless, ≥ 0).
@@ -78,7 +78,7 @@ impl BackReaction {
 /// `conc_mol_m3` (mol/m³), rate constant `kf_m_s` (m/s), diffusion coefficient `d_m2_s` (m²/s)
 /// of the reactant and time `t_s` (s) after the step.
 ///
-/// Source: Bard & Faulkner 2001, §5.5 (see the module documentation). Valid for planar
+/// Source: Bard & Faulkner 2001 (see the module documentation). Valid for planar
 /// semi-infinite diffusion with constant `kf` and `kb` (a potential step with negligible
 /// uncompensated resistance) and no product present before the step.
 pub fn kinetic_current_a(
@@ -170,7 +170,7 @@ pub struct KineticsFit {
 
 const EQUATION: &str =
     "I = n·F·A·kf·C·exp(H²t)·erfc(H√t), H = kf/√D_O + kb/√D_R, computed with erfcx";
-const SOURCE: &str = "A. J. Bard & L. R. Faulkner, Electrochemical Methods, 2nd ed., Wiley 2001, §5.5 (potential step to a potential of finite rate)";
+const SOURCE: &str = "A. J. Bard & L. R. Faulkner, Electrochemical Methods, 2nd ed., Wiley 2001 (potential step to a potential of finite rate)";
 const VALIDITY: &str = "planar semi-infinite diffusion; constant kf (and kb) after the step, i.e. negligible uncompensated resistance and charging; no product before the step; kf and D both determined when H√t spans about 3 from below to above within the window";
 
 /// Below this `H√t` at the first point the current is at least ~10 % under Cottrell's, so the

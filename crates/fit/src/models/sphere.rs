@@ -2,7 +2,7 @@
 //!
 //! `I(t) = n·F·A·D·C·(1/√(πDt) + 1/r₀)`, `A = 4πr₀²` (sphere) or `2πr₀²` (hemisphere on an
 //! insulating plane) (A. J. Bard & L. R. Faulkner, *Electrochemical Methods*, 2nd ed., Wiley
-//! 2001, §5.2.2; the solution for a sphere in J. Crank, *The Mathematics of Diffusion*, 2nd ed.,
+//! 2001; the solution for a sphere in J. Crank, *The Mathematics of Diffusion*, 2nd ed.,
 //! Oxford 1975, ch. 6). The current is linear in `t^-½`: `I = S·t^-½ + b` with
 //! `S = n·F·A·C·√(D/π)` and `b = n·F·A·D·C/r₀`, so `b/S = √(πD)/r₀` and
 //! `D = (r₀·b/S)²/π` without knowing C; `n·C = b·r₀/(F·A·D)` then follows.
@@ -39,7 +39,7 @@ impl SphereKind {
 
 /// The diffusion-limited current to a sphere or hemisphere of radius `radius_m` (m) in A, for
 /// `n` electrons, bulk concentration `conc_mol_m3` (mol/m³), diffusion coefficient `d_m2_s`
-/// (m²/s) and time `t_s` (s): `I = n·F·A·D·C·(1/√(πDt) + 1/r₀)` (Bard & Faulkner 2001, §5.2.2).
+/// (m²/s) and time `t_s` (s): `I = n·F·A·D·C·(1/√(πDt) + 1/r₀)` (Bard & Faulkner 2001).
 ///
 /// Valid for a sphere in an unbounded medium (or a hemisphere on an insulating plane) at the
 /// diffusion limit, after double-layer charging and before natural convection.
@@ -82,8 +82,7 @@ pub struct SphereFit {
 }
 
 const EQUATION: &str = "I = n·F·A·D·C·(1/√(πDt) + 1/r0), A = 4πr0² (sphere) or 2πr0² (hemisphere)";
-const SOURCE: &str =
-    "A. J. Bard & L. R. Faulkner, Electrochemical Methods, 2nd ed., Wiley 2001, §5.2.2";
+const SOURCE: &str = "A. J. Bard & L. R. Faulkner, Electrochemical Methods, 2nd ed., Wiley 2001";
 const VALIDITY: &str = "a whole sphere in unbounded solution (or a hemisphere on an insulating plane) at the diffusion limit; after double-layer charging, before natural convection; no constant background current (it would be read as the steady-state term)";
 
 /// Fits D and n·C to a transient at a sphere or hemisphere of known radius.
