@@ -58,12 +58,14 @@
 pub mod cell;
 pub mod constants;
 pub mod error;
+pub mod geometry;
 pub mod linalg;
 pub mod models;
 pub mod planar;
 pub mod regression;
 pub mod replicates;
 pub mod solver;
+pub mod special;
 pub mod window;
 
 pub use error::FitError;

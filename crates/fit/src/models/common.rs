@@ -1,0 +1,503 @@
+//! What every model fit shares: the input transient, the error type, the result skeleton and
+//! the step from a converged least-squares fit to honest intervals.
+//!
+//! The intervals follow the planar analysis: the residuals' autocorrelation sets a white plus
+//! AR(1) noise model ([`NoiseModel::from_autocorrelation`]), the covariance is the sandwich
+//! [`sandwich_covariance`] for that noise, and Student's t takes the effective number of points
+//! less the parameters as its degrees of freedom.
+
+use nalgebra::{DMatrix, DVector};
+use serde::Serialize;
+use statrs::distribution::{ContinuousCDF, StudentsT};
+
+use crate::FitError;
+use crate::planar::{Estimate, Param};
+use crate::regression::{NoiseModel, sandwich_covariance};
+use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, Termination, solve};
+
+/// One potential-step transient: times after the step (s, positive, strictly increasing) and
+/// the faradaic current (A, positive in the faradaic direction, background removed).
+#[derive(Debug, Clone, Copy)]
+pub struct Transient<'a> {
+    /// Times after the step, in s.
+    pub time_s: &'a [f64],
+    /// Currents in A.
+    pub current_a: &'a [f64],
+}
+
+impl Transient<'_> {
+    /// Checks lengths, finiteness and that the times are positive and increasing.
+    ///
+    /// # Errors
+    ///
+    /// [`ModelError::Fit`] with [`FitError::DimensionMismatch`] or
+    /// [`FitError::NonFiniteInput`], or [`ModelError::InvalidInput`] for times that do not
+    /// increase.
+    pub fn validate(&self, what: &'static str) -> Result<(), ModelError> {
+        let n = self.time_s.len();
+        if self.current_a.len() != n {
+            return Err(FitError::DimensionMismatch {
+                what: "current",
+                found: self.current_a.len(),
+                expected: n,
+            }
+            .into());
+        }
+        if let Some(row) = (0..n).find(|&i| !self.current_a[i].is_finite()) {
+            return Err(FitError::NonFiniteInput {
+                what: "current",
+                row,
+            }
+            .into());
+        }
+        if let Some(row) = (0..n).find(|&i| !(self.time_s[i].is_finite() && self.time_s[i] > 0.0)) {
+            return Err(ModelError::InvalidInput {
+                what,
+                requirement: "times after the step that are finite and positive",
+                value: self.time_s[row],
+            });
+        }
+        if let Some(row) = (1..n).find(|&i| !(self.time_s[i] > self.time_s[i - 1])) {
+            return Err(ModelError::InvalidInput {
+                what,
+                requirement: "strictly increasing times",
+                value: self.time_s[row],
+            });
+        }
+        Ok(())
+    }
+
+    /// The points with `lo ≤ t ≤ hi`, as a sub-transient.
+    pub fn window(&self, lo_s: f64, hi_s: f64) -> Transient<'_> {
+        let a = self.time_s.partition_point(|&t| t < lo_s);
+        let b = self.time_s.partition_point(|&t| t <= hi_s).max(a);
+        Transient {
+            time_s: &self.time_s[a..b],
+            current_a: &self.current_a[a..b],
+        }
+    }
+
+    /// Number of points.
+    pub fn len(&self) -> usize {
+        self.time_s.len()
+    }
+
+    /// Whether there are no points.
+    pub fn is_empty(&self) -> bool {
+        self.time_s.is_empty()
+    }
+}
+
+/// Why a model could not be fitted.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum ModelError {
+    /// An input is outside the range the model is defined for.
+    #[error("{what} must be {requirement}, got {value}")]
+    InvalidInput {
+        /// Which input.
+        what: &'static str,
+        /// What it must satisfy.
+        requirement: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// Too few points for the fit (or for one of its windows).
+    #[error("{what}: {points} points, at least {needed} are needed")]
+    TooFewPoints {
+        /// Which fit or window.
+        what: &'static str,
+        /// Points available.
+        points: usize,
+        /// Points needed.
+        needed: usize,
+    },
+    /// The data do not determine a parameter of the model.
+    #[error("{0}")]
+    NotIdentifiable(String),
+    /// The numerical fit failed.
+    #[error("the fit failed: {0}")]
+    Fit(#[from] FitError),
+}
+
+/// Kinds of model warnings.
+///
+/// The planar analysis's [`crate::planar::WarningCode`] has no codes for a window outside a
+/// model's validity or for a kinetic limitation, and that file belongs to the planar analysis,
+/// so the models carry their own codes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+#[non_exhaustive]
+pub enum ModelWarningCode {
+    /// Part of the data lies outside the range where the model's equation holds.
+    OutsideValidity,
+    /// A parameter is poorly determined by this window.
+    PoorlyDetermined,
+    /// The electron transfer is slow enough to lower the current at short times.
+    KineticLimitation,
+    /// A cross-check disagrees with the full fit by more than its uncertainty.
+    CrossCheckDisagrees,
+    /// A cross-check could not be computed.
+    CrossCheckUnavailable,
+    /// Residuals are structured or correlated.
+    StructuredResiduals,
+    /// The result rests on an assumption the user should confirm.
+    Assumption,
+}
+
+/// A warning of a model fit, in plain language.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ModelWarning {
+    /// What kind, for programs.
+    pub code: ModelWarningCode,
+    /// For people.
+    pub message: String,
+}
+
+pub(crate) fn warning(code: ModelWarningCode, message: String) -> ModelWarning {
+    ModelWarning { code, message }
+}
+
+/// The part of a model fit every model reports.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ModelFit {
+    /// Model identifier.
+    pub model: &'static str,
+    /// The equation fitted.
+    pub equation: &'static str,
+    /// Its published source.
+    pub source: &'static str,
+    /// Where the equation holds.
+    pub validity: &'static str,
+    /// Whether every fitted point lies inside that range (judged with the fitted parameters).
+    pub in_validity_range: bool,
+    /// How the validity was judged, with the numbers.
+    pub validity_check: String,
+    /// Fitted (and derived) parameters with standard errors and 95 % intervals.
+    pub params: Vec<Param>,
+    /// Correlation matrix of the fitted parameters, in the order of the first entries of
+    /// `params`.
+    pub correlations: Vec<Vec<f64>>,
+    /// Diffusion coefficient in m²/s, when the model gives one.
+    pub diffusion_m2_s: Option<Estimate>,
+    /// Solver iterations (count).
+    pub iterations: u64,
+    /// Whether a convergence test stopped the solver (always true in a returned fit).
+    pub converged: bool,
+    /// Which test stopped it.
+    pub termination: Termination,
+    /// Points in the fit (count).
+    pub points: usize,
+    /// Residual standard deviation in the unit of the fitted quantity (A or C).
+    pub residual_sd: f64,
+    /// The noise model used for the covariance.
+    pub noise: NoiseModel,
+    /// Degrees of freedom for Student's t (effective points less parameters, at least 1).
+    pub degrees_of_freedom: f64,
+    /// Warnings in plain language.
+    pub warnings: Vec<ModelWarning>,
+}
+
+/// The 97.5 % quantile of Student's t with `dof` degrees of freedom (at least 1).
+pub(crate) fn t_quantile(dof: f64) -> f64 {
+    StudentsT::new(0.0, 1.0, dof.max(1.0)).map_or(1.96, |d| d.inverse_cdf(0.975))
+}
+
+/// A value with its standard error and 95 % interval from Student's t.
+pub(crate) fn estimate(value: f64, se: f64, dof: f64) -> Estimate {
+    let t = t_quantile(dof);
+    Estimate {
+        value,
+        std_error: se,
+        ci95: [value - t * se, value + t * se],
+    }
+}
+
+/// A named parameter.
+pub(crate) fn param(
+    name: &'static str,
+    symbol: &'static str,
+    unit: &'static str,
+    estimate: Estimate,
+) -> Param {
+    Param {
+        name,
+        symbol,
+        unit,
+        estimate,
+    }
+}
+
+/// Lags of the residual autocorrelation used for the noise model (as in the planar analysis).
+const LAGS: usize = 10;
+
+/// Autocorrelation ρ(1..=LAGS) of a residual series.
+pub(crate) fn autocorrelation(r: &[f64]) -> Vec<f64> {
+    let n = r.len();
+    let mean = r.iter().sum::<f64>() / n.max(1) as f64;
+    let c0: f64 = r.iter().map(|v| (v - mean).powi(2)).sum();
+    (1..=LAGS.min(n.saturating_sub(1)))
+        .map(|k| {
+            if c0 > 0.0 {
+                (0..n - k)
+                    .map(|i| (r[i] - mean) * (r[i + k] - mean))
+                    .sum::<f64>()
+                    / c0
+            } else {
+                0.0
+            }
+        })
+        .collect()
+}
+
+/// A converged fit with the sandwich covariance for the residuals' own noise model.
+#[derive(Debug, Clone)]
+pub(crate) struct Solved {
+    pub fit: NonlinearFit,
+    pub covariance: DMatrix<f64>,
+    pub noise: NoiseModel,
+    pub dof: f64,
+}
+
+impl Solved {
+    pub fn value(&self, j: usize) -> f64 {
+        self.fit.parameters[j]
+    }
+
+    pub fn se(&self, j: usize) -> f64 {
+        self.covariance[(j, j)].max(0.0).sqrt()
+    }
+
+    pub fn estimate(&self, j: usize) -> Estimate {
+        estimate(self.value(j), self.se(j), self.dof)
+    }
+
+    pub fn correlations(&self) -> Vec<Vec<f64>> {
+        let n = self.covariance.nrows();
+        (0..n)
+            .map(|i| {
+                (0..n)
+                    .map(|j| {
+                        let d = (self.covariance[(i, i)] * self.covariance[(j, j)]).sqrt();
+                        if d > 0.0 {
+                            self.covariance[(i, j)] / d
+                        } else {
+                            0.0
+                        }
+                    })
+                    .collect()
+            })
+            .collect()
+    }
+
+    /// Warnings about the residuals: strong autocorrelation means structure the model misses
+    /// (or correlated instrument noise), which the sandwich covariance allows for but which
+    /// the user should see.
+    pub fn residual_warnings(&self) -> Vec<ModelWarning> {
+        let mut out = Vec::new();
+        if self.noise.c * self.noise.phi > 0.5 {
+            out.push(warning(
+                ModelWarningCode::StructuredResiduals,
+                format!(
+                    "the residuals are strongly correlated (AR(1) share {:.2}, φ = {:.3}): either the model misses part of the transient or the noise is filtered; the intervals allow for the correlation ({:.0} effective of {} points)",
+                    self.noise.c,
+                    self.noise.phi,
+                    self.dof + self.fit.parameters.len() as f64,
+                    self.fit.observations
+                ),
+            ));
+        }
+        out
+    }
+}
+
+/// Solves `problem` from `p0` and attaches the sandwich covariance for a white plus AR(1)
+/// noise model estimated from the residuals.
+pub(crate) fn solve_with_noise<P: LeastSquaresProblem + ?Sized>(
+    problem: &P,
+    p0: DVector<f64>,
+) -> Result<Solved, FitError> {
+    let fit = solve(problem, p0, &SolveOptions::default())?;
+    let p = DVector::from_vec(fit.parameters.clone());
+    let residuals = problem.residuals(&p);
+    let m = residuals.len();
+    let rho = autocorrelation(residuals.as_slice());
+    let noise = NoiseModel::from_autocorrelation(&rho, m);
+    let jacobian = problem.jacobian(&p);
+    let s2 = fit.residual_sum_of_squares / fit.degrees_of_freedom as f64;
+    let covariance = sandwich_covariance(&jacobian, s2, noise).ok_or(FitError::RankDeficient {
+        column: 0,
+        rank: 0,
+        parameters: p.len(),
+        condition_number: f64::INFINITY,
+    })?;
+    let dof = (noise.effective_points(m) - p.len() as f64).max(1.0);
+    Ok(Solved {
+        fit,
+        covariance,
+        noise,
+        dof,
+    })
+}
+
+/// Ordinary least squares of `y` on the columns of `x` (each a regressor), with the sandwich
+/// covariance for the residuals' noise model: the closed-form estimates the cross-checks use.
+pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitError> {
+    struct Linear<'a> {
+        columns: &'a [Vec<f64>],
+        y: &'a [f64],
+    }
+    impl LeastSquaresProblem for Linear<'_> {
+        fn residuals(&self, p: &DVector<f64>) -> DVector<f64> {
+            DVector::from_fn(self.y.len(), |i, _| {
+                self.y[i]
+                    - self
+                        .columns
+                        .iter()
+                        .enumerate()
+                        .map(|(j, c)| p[j] * c[i])
+                        .sum::<f64>()
+            })
+        }
+        fn jacobian(&self, _p: &DVector<f64>) -> DMatrix<f64> {
+            DMatrix::from_fn(self.y.len(), self.columns.len(), |i, j| -self.columns[j][i])
+        }
+    }
+    let x = DMatrix::from_fn(y.len(), columns.len(), |i, j| columns[j][i]);
+    let start = crate::linalg::lstsq(&x, &DVector::from_column_slice(y), None)?;
+    let problem = Linear { columns, y };
+    solve_with_noise(&problem, DVector::from_vec(start.coefficients.clone()))
+}
+
+/// Checks that `value` is positive and finite.
+pub(crate) fn positive(what: &'static str, value: f64) -> Result<f64, ModelError> {
+    if value > 0.0 && value.is_finite() {
+        Ok(value)
+    } else {
+        Err(ModelError::InvalidInput {
+            what,
+            requirement: "a positive finite number",
+            value,
+        })
+    }
+}
+
+/// The value of `x` (on a grid of `ln x` from `lo` to `hi` in `steps`) that minimises `cost`:
+/// a robust start for a parameter that enters nonlinearly.
+pub(crate) fn log_grid_min(lo: f64, hi: f64, steps: usize, cost: impl Fn(f64) -> f64) -> f64 {
+    let (a, b) = (lo.ln(), hi.ln());
+    let mut best = (f64::INFINITY, lo);
+    for k in 0..=steps {
+        let x = (a + (b - a) * k as f64 / steps as f64).exp();
+        let c = cost(x);
+        if c < best.0 {
+            best = (c, x);
+        }
+    }
+    best.1
+}
+
+/// What is known besides the geometry: the fit determines the product `n·C`, and the known
+/// factor turns it into the other.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind", content = "value")]
+pub enum Known {
+    /// `n` is known (electrons per molecule); C is reported.
+    Electrons(f64),
+    /// `C` is known (mol/m³); n is reported.
+    Concentration(f64),
+}
+
+impl Known {
+    pub(crate) fn validate(self) -> Result<(), ModelError> {
+        match self {
+            Known::Electrons(n) => positive("n", n).map(|_| ()),
+            Known::Concentration(c) => positive("concentration", c).map(|_| ()),
+        }
+    }
+
+    /// The parameter derived from `n·C` (mol/m³) with its standard error.
+    pub(crate) fn derived(self, nc: Estimate) -> Param {
+        let (k, name, symbol, unit) = match self {
+            Known::Electrons(n) => (n, "bulk concentration", "C", "mol/m³"),
+            Known::Concentration(c) => (c, "electrons per molecule", "n", "1"),
+        };
+        Param {
+            name,
+            symbol,
+            unit,
+            estimate: Estimate {
+                value: nc.value / k,
+                std_error: nc.std_error / k,
+                ci95: [nc.ci95[0] / k, nc.ci95[1] / k],
+            },
+        }
+    }
+}
+
+/// A model `I = K·g(D, t)` with `K = n·C` (mol/m³) entering linearly and `D` (m²/s)
+/// nonlinearly; `shape(D, t)` returns `(g, ∂g/∂D)` in A·m³/mol and A·m³·s/(mol·m²).
+/// Parameters `[D, K]`.
+pub(crate) struct ScaledByNc<'a, G: Fn(f64, f64) -> (f64, f64)> {
+    pub data: Transient<'a>,
+    pub shape: G,
+}
+
+impl<G: Fn(f64, f64) -> (f64, f64)> LeastSquaresProblem for ScaledByNc<'_, G> {
+    fn residuals(&self, p: &DVector<f64>) -> DVector<f64> {
+        let (d, k) = (p[0], p[1]);
+        DVector::from_fn(self.data.len(), |i, _| {
+            if d > 0.0 {
+                self.data.current_a[i] - k * (self.shape)(d, self.data.time_s[i]).0
+            } else {
+                f64::NAN
+            }
+        })
+    }
+
+    fn jacobian(&self, p: &DVector<f64>) -> DMatrix<f64> {
+        let (d, k) = (p[0], p[1]);
+        let mut j = DMatrix::zeros(self.data.len(), 2);
+        for i in 0..self.data.len() {
+            let (g, dg) = (self.shape)(d, self.data.time_s[i]);
+            j[(i, 0)] = -k * dg;
+            j[(i, 1)] = -g;
+        }
+        j
+    }
+}
+/// The least-squares scale `k` of `model` against `y` (`y ≈ k·model`) and the residual sum of
+/// squares it leaves.
+pub(crate) fn best_scale(model: &[f64], y: &[f64]) -> (f64, f64) {
+    let mm: f64 = model.iter().map(|m| m * m).sum();
+    let my: f64 = model.iter().zip(y).map(|(m, y)| m * y).sum();
+    if !(mm > 0.0) {
+        return (0.0, f64::INFINITY);
+    }
+    let k = my / mm;
+    let rss = model
+        .iter()
+        .zip(y)
+        .map(|(m, y)| (y - k * m).powi(2))
+        .sum::<f64>();
+    (k, rss)
+}
+
+impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
+    /// Starting values: the best `D` on a log grid from 1e-14 to 1e-6 m²/s (40 per decade),
+    /// each with its least-squares `K`; then Levenberg–Marquardt from there.
+    pub fn solve(&self) -> Result<Solved, FitError> {
+        let fit_k = |d: f64| {
+            let g: Vec<f64> = self
+                .data
+                .time_s
+                .iter()
+                .map(|&t| (self.shape)(d, t).0)
+                .collect();
+            best_scale(&g, self.data.current_a)
+        };
+        let d0 = log_grid_min(1e-14, 1e-6, 320, |d| fit_k(d).1);
+        let k0 = fit_k(d0).0;
+        solve_with_noise(self, DVector::from_vec(vec![d0, k0]))
+    }
+}
