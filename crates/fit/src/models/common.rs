@@ -364,9 +364,21 @@ pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitE
         }
     }
     let x = DMatrix::from_fn(y.len(), columns.len(), |i, j| columns[j][i]);
-    let start = crate::linalg::lstsq(&x, &DVector::from_column_slice(y), None)?;
+    // A plain Householder solve is start enough: the solver polishes it, and the refined
+    // `lstsq` costs more than the whole fit on long transients.
+    let qr = x.qr();
+    let qty = qr.q().transpose() * DVector::from_column_slice(y);
+    let start = qr
+        .r()
+        .solve_upper_triangular(&qty)
+        .ok_or(FitError::RankDeficient {
+            column: 0,
+            rank: 0,
+            parameters: columns.len(),
+            condition_number: f64::INFINITY,
+        })?;
     let problem = Linear { columns, y };
-    solve_with_noise(&problem, DVector::from_vec(start.coefficients.clone()))
+    solve_with_noise(&problem, start)
 }
 
 /// Checks that `value` is positive and finite.
@@ -485,16 +497,22 @@ pub(crate) fn best_scale(model: &[f64], y: &[f64]) -> (f64, f64) {
 
 impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
     /// Starting values: the best `D` on a log grid from 1e-14 to 1e-6 m²/s (40 per decade),
-    /// each with its least-squares `K`; then Levenberg–Marquardt from there.
+    /// each with its least-squares `K`, on at most 2000 evenly strided points (a start needs no
+    /// more, and 320 grid values on every point of a long transient cost more than the fit);
+    /// then Levenberg–Marquardt from there on all points.
     pub fn solve(&self) -> Result<Solved, FitError> {
+        let stride = (self.data.len() / 2000).max(1);
+        let (t_sub, y_sub): (Vec<f64>, Vec<f64>) = self
+            .data
+            .time_s
+            .iter()
+            .zip(self.data.current_a)
+            .step_by(stride)
+            .map(|(t, y)| (*t, *y))
+            .unzip();
         let fit_k = |d: f64| {
-            let g: Vec<f64> = self
-                .data
-                .time_s
-                .iter()
-                .map(|&t| (self.shape)(d, t).0)
-                .collect();
-            best_scale(&g, self.data.current_a)
+            let g: Vec<f64> = t_sub.iter().map(|&t| (self.shape)(d, t).0).collect();
+            best_scale(&g, &y_sub)
         };
         let d0 = log_grid_min(1e-14, 1e-6, 320, |d| fit_k(d).1);
         let k0 = fit_k(d0).0;
