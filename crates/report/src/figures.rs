@@ -449,19 +449,32 @@ pub(crate) fn sensitivity(id: &str, result: &PlanarResult, upper: bool) -> Optio
     })
 }
 
-/// Per-run values with their 95 % intervals, the mean and its 95 % interval.
-pub(crate) fn replicate_plot(rep: &Replicates, intervals: &[(f64, f64)]) -> Option<Plot> {
+/// Whether every run's interval is too short to see beside its marker on the replicate plot
+/// (under 3 % of the axis).
+pub(crate) fn intervals_hidden(intervals: &[(f64, f64)], axis: (f64, f64)) -> bool {
+    let span = axis.1 - axis.0;
+    span > 0.0 && intervals.iter().all(|(a, b)| (b - a).abs() < 0.03 * span)
+}
+
+/// The vertical range of the replicate plot.
+pub(crate) fn replicate_range(rep: &Replicates, intervals: &[(f64, f64)]) -> Option<(f64, f64)> {
     let s = rep.summary.as_ref().ok()?;
-    let n = rep.estimates.len();
-    let xs: Vec<f64> = (1..=n).map(|k| k as f64).collect();
-    let y = padded_range(
+    padded_range(
         intervals
             .iter()
             .flat_map(|(a, b)| [*a, *b])
             .chain(rep.estimates.iter().map(|e| e.value))
             .chain([s.ci95.lower, s.ci95.upper]),
         false,
-    )?;
+    )
+}
+
+/// Per-run values with their 95 % intervals, the mean and its 95 % interval.
+pub(crate) fn replicate_plot(rep: &Replicates, intervals: &[(f64, f64)]) -> Option<Plot> {
+    let s = rep.summary.as_ref().ok()?;
+    let n = rep.estimates.len();
+    let xs: Vec<f64> = (1..=n).map(|k| k as f64).collect();
+    let y = replicate_range(rep, intervals)?;
     let suspect = match &s.grubbs {
         diffusor_fit::replicates::GrubbsOutcome::Tested(g) if g.outlier => Some(g.suspect_index),
         _ => None,

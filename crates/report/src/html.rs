@@ -64,7 +64,7 @@ pub(crate) fn document(input: &ReportInput<'_>) -> Markup {
                                 a.download download="diffusor-results.json" href=(data_url("application/json", json)) {
                                     "diffusor-results.json"
                                 }
-                                " (schema diffusor.fit/1, embedded in this file)"
+                                "; schema diffusor.fit/1"
                             }
                         }
                     }
@@ -384,6 +384,8 @@ fn replicate_section(rep: &Replicates, runs: &[RunInput<'_>]) -> Markup {
         })
         .collect();
     let plot = figures::replicate_plot(rep, &intervals);
+    let hidden = figures::replicate_range(rep, &intervals)
+        .is_some_and(|axis| figures::intervals_hidden(&intervals, axis));
     // One power of ten for the whole table, from the largest value, so the columns line up.
     let largest = rep
         .estimates
@@ -432,7 +434,12 @@ fn replicate_section(rep: &Replicates, runs: &[RunInput<'_>]) -> Markup {
                 @if let Some(p) = plot {
                     figure {
                         (p.render())
-                        figcaption { "Each run's " (rep.quantity) " with the 95 % interval of its fit; the line and band are the mean of the runs and its 95 % interval. Run numbers as in the table." }
+                        figcaption {
+                            "Each run's " (rep.quantity) " with the 95 % interval of its fit; the line and band are the mean of the runs and its 95 % interval. Run numbers as in the table."
+                            @if hidden {
+                                " The runs' own intervals are shorter than the markers here: the runs differ by far more than any one fit's uncertainty."
+                            }
+                        }
                     }
                 }
             }
@@ -785,7 +792,7 @@ fn run_section(k: usize, run: &RunInput<'_>, options: &PlanarOptions) -> Markup 
                         }))
                         (figure(&format!("{k}.6"), figures::sensitivity(&id, result, true).map(|p| p.render()), &html! {
                             "The result refitted with the upper bound moved and the lower bound held. A plateau around the bound used means the result does not hinge on it."
-                            @if let Some(s) = &result.sensitivity { " " (s.note) "." }
+                            @if let Some(s) = &result.sensitivity { " (" (s.note) ".)" }
                         }))
                     }
                     h3 { "Model" }
@@ -807,7 +814,7 @@ fn run_section(k: usize, run: &RunInput<'_>, options: &PlanarOptions) -> Markup 
                         a.download download={ (safe_file_name(run.label)) "-window.csv" } href=(data_url("text/csv", &csv.text)) {
                             "Download the fitted data (CSV, " (csv.rows) " rows)"
                         }
-                        " — embedded in this file: time after the importer's onset (s), current as fitted (A, faradaic direction positive, background removed), fitted current and residual (A), for the window "
+                        ". Columns: time after the importer's onset (s), current as fitted (A, faradaic direction positive, background removed), fitted current and residual (A), for the window "
                         (format_si(result.window.lo.time_s, "s", 4)) " to " (format_si(result.window.hi.time_s, "s", 4)) ". "
                         @if csv.stride > 1 {
                             "The window holds " (csv.window_points) " points; to keep the file small every " (csv.stride) "th was written."
