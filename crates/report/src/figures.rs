@@ -64,10 +64,12 @@ pub(crate) fn transient(
     let mut legend = vec![Key::line(Look::Trace, "measured")];
     let mut shaded = false;
     if let Some(label) = before_label(&result.window.lo.reason) {
+        // A decaying transient is high at the start: the label goes below it there.
         layers.push(Layer::Span {
             x0: x.0,
             x1: lo,
             label: label.to_owned(),
+            low: true,
         });
         shaded = true;
     }
@@ -76,6 +78,7 @@ pub(crate) fn transient(
             x0: hi,
             x1: x.1,
             label: label.to_owned(),
+            low: false,
         });
         shaded = true;
     }

@@ -5,6 +5,12 @@ use diffusor_trace::format_si;
 
 use crate::ticks::power_of_ten;
 
+/// `v` in engineering notation (`format_si`) with a true minus sign, as the rest of the page
+/// writes negative numbers.
+pub(crate) fn si(v: f64, unit: &str, digits: usize) -> String {
+    format_si(v, unit, digits).replace('-', "−")
+}
+
 /// `v` in scientific notation with `digits` significant digits, as `7.0099 × 10⁻⁶`; plain for
 /// exponents −2…3.
 pub(crate) fn sci(v: f64, digits: usize) -> String {
@@ -81,7 +87,7 @@ pub(crate) fn quantity(v: f64, si_unit: &str, digits: usize) -> String {
     match display_of(si_unit) {
         Display::Scaled(f, "") => sci(v * f, digits),
         Display::Scaled(f, u) => format!("{} {u}", sci(v * f, digits)),
-        Display::Engineering(u) => format_si(v, u, digits),
+        Display::Engineering(u) => si(v, u, digits),
     }
 }
 
@@ -93,11 +99,7 @@ pub(crate) fn quantity_with_se(v: f64, se: f64, si_unit: &str) -> String {
             let s = with_se(v * f, se * f);
             if u.is_empty() { s } else { format!("{s} {u}") }
         }
-        Display::Engineering(u) => format!(
-            "{} ± {}",
-            format_si(v, u, digits_for(v, se)),
-            format_si(se, u, 2)
-        ),
+        Display::Engineering(u) => format!("{} ± {}", si(v, u, digits_for(v, se)), si(se, u, 2)),
     }
 }
 
@@ -110,7 +112,7 @@ pub(crate) fn quantity_interval(lo: f64, hi: f64, v: f64, se: f64, si_unit: &str
         }
         Display::Engineering(u) => {
             let d = digits_for(v, se);
-            format!("{} … {}", format_si(lo, u, d), format_si(hi, u, d))
+            format!("{} … {}", si(lo, u, d), si(hi, u, d))
         }
     }
 }
@@ -163,6 +165,7 @@ mod tests {
         assert_eq!(quantity(7.07e-6, "m²", 3), "0.0707 cm²");
         assert_eq!(quantity(1.0, "mol/m³", 3), "1.00 mM");
         assert_eq!(quantity(2.02682e-8, "A", 3), "20.3 nA");
+        assert_eq!(quantity(-4.9943e-4, "s", 4), "−499.4 µs");
         assert_eq!(quantity(1.0189e-5, "A·s^½", 4), "10.19 µA·s^½");
         assert_eq!(quantity(6.82e-5, "mol/m", 3), "6.82 × 10⁻⁷ mol/cm");
     }

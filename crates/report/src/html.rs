@@ -6,20 +6,18 @@ use diffusor_fit::cell::{Cell, Geometry, Measured};
 use diffusor_fit::planar::{Background, PlanarOptions, PlanarResult};
 use diffusor_fit::replicates::{GrubbsOutcome, ReplicateSummary};
 use diffusor_fit::window::BoundChoice;
-use diffusor_trace::{
-    ColumnInfo, DecimalMark, OnsetMethod, Polarity, Provenance, Trace, format_si,
-};
+use diffusor_trace::{ColumnInfo, DecimalMark, OnsetMethod, Polarity, Provenance, Trace};
 use maud::{DOCTYPE, Markup, PreEscaped, html};
 
 use crate::data::{Processed, data_url, safe_file_name, window_csv};
 use crate::figures;
-use crate::fmt::{percent, quantity, quantity_interval, quantity_with_se, sci};
+use crate::fmt::{percent, quantity, quantity_interval, quantity_with_se, sci, si};
 use crate::{Outcome, Replicates, ReportInput, RunInput, replicates};
 
 const STYLE: &str = include_str!("style.css");
 
 /// What every report says about its own limits, near the top and again at the end.
-const CAUTION: &str = "These results depend on the electrode area, the concentration and the number of electrons n entered below, and on the fitting window. Validate the procedure against a standard of known diffusion coefficient before relying on it. Make measurements according to your laboratory's rules and the safety data sheets of the reagents you use.";
+const CAUTION: &str = "These results depend on the electrode area, the concentration, the number of electrons n and any known diffusion coefficient entered below, and on the fitting window. Validate the procedure against a standard of known diffusion coefficient before relying on it. Make measurements according to your laboratory's rules and the safety data sheets of the reagents you use.";
 
 /// The page's content security policy: nothing may be fetched or run, styles are inline, and
 /// `data:` is allowed only for the embedded downloads. It is a second line of defence; the page
@@ -165,7 +163,7 @@ fn overview(runs: &[RunInput<'_>]) -> Markup {
                                     } @else {
                                         td colspan="3" { "slope only: enter the area and concentration for D" }
                                     }
-                                    td { (format_si(result.window.lo.time_s, "s", 3)) " – " (format_si(result.window.hi.time_s, "s", 3)) }
+                                    td { (si(result.window.lo.time_s, "s", 3)) " – " (si(result.window.hi.time_s, "s", 3)) }
                                     td.num { (result.warnings.len()) }
                                 },
                                 Outcome::Failed { error, .. } => {
@@ -211,7 +209,7 @@ fn geometry_text(g: Geometry) -> &'static str {
 fn bound_rule(choice: BoundChoice, lower: bool, o: &PlanarOptions) -> String {
     let w = &o.window;
     match choice {
-        BoundChoice::At(t) => format!("set by the user at {}", format_si(t, "s", 4)),
+        BoundChoice::At(t) => format!("set by the user at {}", si(t, "s", 4)),
         BoundChoice::Auto if lower => {
             let mut s = format!(
                 "automatic: {} × the charging time constant τ = Ru·Cdl, and no earlier than where the fitted charging current falls below {} % of the faradaic current; when τ cannot be resolved, after the leading points whose current exceeds the Cottrell line significantly",
@@ -221,15 +219,15 @@ fn bound_rule(choice: BoundChoice, lower: bool, o: &PlanarOptions) -> String {
             if let (Some(ru), Some(cdl)) = (w.ru_ohm, w.cdl_f) {
                 s.push_str(&format!(
                     "; τ from the entered Ru = {} and Cdl = {}",
-                    format_si(ru, "Ω", 3),
-                    format_si(cdl, "F", 3)
+                    si(ru, "Ω", 3),
+                    si(cdl, "F", 3)
                 ));
             }
             if let Some(rise) = w.rise_time_s {
                 s.push_str(&format!(
                     "; no earlier than {} × the instrument rise time {}",
                     w.k_tau,
-                    format_si(rise, "s", 3)
+                    si(rise, "s", 3)
                 ));
             }
             s
@@ -247,7 +245,7 @@ fn background_rule(b: &Background) -> String {
         Background::None => "none subtracted".to_owned(),
         Background::Baseline => "the mean of the pre-step baseline subtracted".to_owned(),
         Background::Constant { current_a } => {
-            format!("a constant {} subtracted", format_si(*current_a, "A", 4))
+            format!("a constant {} subtracted", si(*current_a, "A", 4))
         }
         Background::Blank { time_s, .. } => {
             format!("a blank trace of {} samples subtracted", time_s.len())
@@ -503,8 +501,8 @@ fn onset_text(t: &Trace) -> String {
     let how = match &t.onset.method {
         OnsetMethod::PotentialJump { from_v, to_v } => format!(
             "from the jump of the potential, {} → {}",
-            format_si(*from_v, "V", 3),
-            format_si(*to_v, "V", 3)
+            si(*from_v, "V", 3),
+            si(*to_v, "V", 3)
         ),
         OnsetMethod::CurrentJump => {
             "from the jump of the current (no usable potential column)".to_owned()
@@ -517,7 +515,7 @@ fn onset_text(t: &Trace) -> String {
     };
     format!(
         "{how}; at {} on the file's clock (sample {}), midway between the samples either side; times below are measured from it",
-        format_si(t.onset.file_time_s, "s", 5),
+        si(t.onset.file_time_s, "s", 5),
         t.onset.index + 1
     )
 }
@@ -545,22 +543,22 @@ fn processing_log(
         dl.rules {
             dt { "file format" } dd { (dialect_text(t)) }
             dt { "rows read" } dd {
-                (t.rows()) ", " (format_si(t.time_s.first().copied().unwrap_or(f64::NAN), "s", 4)) " to "
-                (format_si(t.time_s.last().copied().unwrap_or(f64::NAN), "s", 4)) " after the step, sampled every "
-                (format_si(t.sampling_interval_s(), "s", 3)) " (median)"
+                (t.rows()) ", " (si(t.time_s.first().copied().unwrap_or(f64::NAN), "s", 4)) " to "
+                (si(t.time_s.last().copied().unwrap_or(f64::NAN), "s", 4)) " after the step, sampled every "
+                (si(t.sampling_interval_s(), "s", 3)) " (median)"
             }
             dt { "step onset" } dd { (onset_text(t)) }
             @if let Some(seg) = segment {
                 dt { "step analysed" } dd {
                     @let number = t.steps().position(|s| s == seg).map_or(1, |k| k + 1);
                     "step " (number) " of " (steps) ", samples " (seg.start + 1) "–" (seg.end)
-                    @if let Some(v) = seg.potential_v { " at " (format_si(v, "V", 3)) }
+                    @if let Some(v) = seg.potential_v { " at " (si(v, "V", 3)) }
                 }
                 dt { "sign" } dd { (sign_text(t, seg)) }
             }
             dt { "baseline" } dd {
                 @match &t.baseline {
-                    Some(b) => { "pre-step mean " (format_si(b.mean_a, "A", 3)) ", SD " (format_si(b.sd_a, "A", 2)) " over " (b.points) " samples" },
+                    Some(b) => { "pre-step mean " (si(b.mean_a, "A", 3)) ", SD " (si(b.sd_a, "A", 2)) " over " (b.points) " samples" },
                     None => { "none (no samples before the step)" },
                 }
             }
@@ -568,7 +566,7 @@ fn processing_log(
                 dt { "background" } dd { (r.background) }
                 dt { "onset refined" } dd {
                     @if r.t0_refined {
-                        "t0 = " (format_si(r.t0.value, "s", 4)) " ± " (format_si(r.t0.std_error, "s", 2)) " relative to the importer's onset (fitted with S and b)"
+                        "t0 = " (si(r.t0.value, "s", 4)) " ± " (si(r.t0.std_error, "s", 2)) " relative to the importer's onset (fitted with S and b)"
                     } @else {
                         "no; t0 = 0 (the importer's onset)"
                     }
@@ -576,8 +574,8 @@ fn processing_log(
             }
             @if let Some((recomputed, fitted)) = check {
                 dt { "data check" } dd {
-                    "the residual SD recomputed from the embedded data is " (format_si(recomputed, "A", 4))
-                    "; the fit reported " (format_si(fitted, "A", 4))
+                    "the residual SD recomputed from the embedded data is " (si(recomputed, "A", 4))
+                    "; the fit reported " (si(fitted, "A", 4))
                     @if (recomputed - fitted).abs() <= 1e-6 * fitted.abs().max(f64::MIN_POSITIVE) { " (they agree)" } @else { " — they differ: the data below may not be exactly what was fitted" }
                 }
             }
@@ -707,7 +705,7 @@ fn quality(r: &PlanarResult) -> Markup {
     html! {
         dl.rules {
             dt { "R²" } dd { (format!("{:.7}", d.r2)) }
-            dt { "residual SD" } dd { (format_si(d.residual_sd_a, "A", 3)) }
+            dt { "residual SD" } dd { (si(d.residual_sd_a, "A", 3)) }
             dt { "Durbin–Watson" } dd { (format!("{:.3}", d.durbin_watson)) " (2 for independent residuals)" }
             dt { "lag-1 autocorrelation" } dd { (format!("{:.3}", d.lag1_autocorrelation)) }
             dt { "runs test" } dd { "z = " (format!("{:.1}", d.runs_z)) " (near 0 when the signs of the residuals alternate at random)" }
@@ -759,14 +757,14 @@ fn run_section(k: usize, run: &RunInput<'_>, options: &PlanarOptions) -> Markup 
                     (processing_log(trace, Some(segment), Some(result), Some(check)))
                     h3 { "Window" }
                     dl.rules {
-                        dt { "from" } dd { (format_si(result.window.lo.time_s, "s", 4)) ": " (result.window.lo.description) @if !result.window.lo.automatic { " (set)" } }
-                        dt { "to" } dd { (format_si(result.window.hi.time_s, "s", 4)) ": " (result.window.hi.description) @if !result.window.hi.automatic { " (set)" } }
+                        dt { "from" } dd { (si(result.window.lo.time_s, "s", 4)) ": " (result.window.lo.description) }
+                        dt { "to" } dd { (si(result.window.hi.time_s, "s", 4)) ": " (result.window.hi.description) }
                         dt { "points" } dd { (result.window.points) }
                         @if let Some(c) = &result.charging {
                             dt { "charging" } dd {
-                                "τ = " (format_si(c.tau_s, "s", 3))
-                                @if let Some(se) = c.tau_std_error_s { " ± " (format_si(se, "s", 2)) }
-                                @if let Some(a) = c.amplitude_a { ", amplitude " (format_si(a, "A", 3)) }
+                                "τ = " (si(c.tau_s, "s", 3))
+                                @if let Some(se) = c.tau_std_error_s { " ± " (si(se, "s", 2)) }
+                                @if let Some(a) = c.amplitude_a { ", amplitude " (si(a, "A", 3)) }
                                 @if c.fitted { " (exponential plus Cottrell fitted to the first " (c.points) " points)" } @else { " (from the entered Ru and Cdl)" }
                             }
                         }
@@ -815,13 +813,13 @@ fn run_section(k: usize, run: &RunInput<'_>, options: &PlanarOptions) -> Markup 
                             "Download the fitted data (CSV, " (csv.rows) " rows)"
                         }
                         ". Columns: time after the importer's onset (s), current as fitted (A, faradaic direction positive, background removed), fitted current and residual (A), for the window "
-                        (format_si(result.window.lo.time_s, "s", 4)) " to " (format_si(result.window.hi.time_s, "s", 4)) ". "
+                        (si(result.window.lo.time_s, "s", 4)) " to " (si(result.window.hi.time_s, "s", 4)) ". "
                         @if csv.stride > 1 {
                             "The window holds " (csv.window_points) " points; to keep the file small every " (csv.stride) "th was written."
                         } @else {
                             "Every point of the window is included."
                         }
-                        " The fitted current uses t0 = " (format_si(result.t0.value, "s", 6)) "."
+                        " The fitted current uses t0 = " (si(result.t0.value, "s", 6)) "."
                     }
                 }
             }

@@ -176,6 +176,9 @@ pub(crate) enum Layer {
         x1: f64,
         /// What the span is.
         label: String,
+        /// Put the label at the bottom of the span instead of the top (where the data leave
+        /// room for it).
+        low: bool,
     },
     /// A shaded span of y across the whole width.
     YBand {
@@ -405,7 +408,7 @@ impl Plot {
         plot_h: f64,
     ) -> Markup {
         match layer {
-            Layer::Span { x0, x1, label } => {
+            Layer::Span { x0, x1, label, low } => {
                 let (a, b) = (px(*x0).max(LEFT), px(*x1).min(WIDTH - RIGHT));
                 if !(b > a) {
                     return html! {};
@@ -413,7 +416,7 @@ impl Plot {
                 html! {
                     rect.(Look::Excluded.class()) x=(f1(a)) y=(f1(top)) width=(f1(b - a)) height=(f1(plot_h)) {}
                     @if b - a > 6.0 * label.chars().count() as f64 + 8.0 {
-                        text.pl-span x=(f1((a + b) / 2.0)) y=(f1(top + 14.0)) text-anchor="middle" { (label) }
+                        text.pl-span x=(f1((a + b) / 2.0)) y=(f1(if *low { top + plot_h - 6.0 } else { top + 14.0 })) text-anchor="middle" { (label) }
                     }
                 }
             }
@@ -553,6 +556,7 @@ mod tests {
                     x0: 1e-3,
                     x1: 1e-2,
                     label: label.to_owned(),
+                    low: false,
                 },
                 Layer::Line {
                     points: (1..=100_000)
