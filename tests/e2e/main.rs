@@ -3,6 +3,7 @@
 mod compare;
 mod fit;
 mod inspect;
+mod report;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

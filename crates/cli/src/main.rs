@@ -9,6 +9,7 @@ mod fit;
 mod import_args;
 mod inspect;
 mod quantity;
+mod report;
 
 /// Diffusion coefficients from potential-step chronoamperometry.
 #[derive(Debug, Parser)]
@@ -29,6 +30,8 @@ enum Command {
     /// Fit every file as `fit` does and compare the runs as replicates: mean, SD, RSD, 95 %
     /// interval, weighted mean with the Birge ratio, and Grubbs' outlier test naming the run.
     Compare(fit::Args),
+    /// Fit every file as `fit` does and write one self-contained HTML report (`-o FILE`).
+    Report(report::Args),
 }
 
 fn main() -> ExitCode {
@@ -37,6 +40,7 @@ fn main() -> ExitCode {
         Command::Inspect(args) => inspect::run(&args),
         Command::Fit(args) => fit::run(&args),
         Command::Compare(args) => compare::run(&args),
+        Command::Report(args) => report::run(&args),
     };
     match result {
         Ok(code) => code,

@@ -1,0 +1,219 @@
+//! `diffusor report`: the analysis of every file, as `fit` does it, written as one
+//! self-contained HTML page (see the `diffusor-report` crate).
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+use std::time::{SystemTime, UNIX_EPOCH};
+
+use anyhow::{Context, bail};
+use diffusor_report::{Outcome, ReportInput, RunInput, render, replicates};
+use diffusor_trace::{ImportOptions, OnsetChoice, Trace, import_bytes};
+use rayon::prelude::*;
+use serde_json::{Value, json};
+use sha2::{Digest, Sha256};
+
+use crate::fit::{self, Run};
+use crate::import_args::ImportArgs;
+
+/// Arguments of `report`: those of `fit`, and where to write the page.
+// clap names an argument group after the struct; `fit::Args` already has that name.
+#[derive(Debug, clap::Args)]
+#[group(id = "report-args")]
+pub struct Args {
+    #[command(flatten)]
+    fit: fit::Args,
+    /// Where to write the HTML report.
+    #[arg(short = 'o', long = "output", value_name = "FILE")]
+    output: PathBuf,
+}
+
+/// A time since the Unix epoch as `YYYY-MM-DD hh:mm:ss UTC`, by the proleptic Gregorian
+/// calendar (the civil-from-days algorithm of H. Hinnant, "chrono-Compatible Low-Level Date
+/// Algorithms", 2013).
+fn utc_timestamp(seconds: i64) -> String {
+    let days = seconds.div_euclid(86_400);
+    let secs = seconds.rem_euclid(86_400);
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z.rem_euclid(146_097);
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let day = doy - (153 * mp + 2) / 5 + 1;
+    let month = if mp < 10 { mp + 3 } else { mp - 9 };
+    let year = yoe + era * 400 + i64::from(month <= 2);
+    format!(
+        "{year:04}-{month:02}-{day:02} {:02}:{:02}:{:02} UTC",
+        secs / 3600,
+        secs % 3600 / 60,
+        secs % 60
+    )
+}
+
+/// The importer's settings that differ from its defaults, for the report's record.
+fn import_notes(import: &ImportArgs) -> Vec<String> {
+    let mut notes = Vec::new();
+    for (what, col) in [
+        ("time", &import.time_col),
+        ("current", &import.current_col),
+        ("potential", &import.potential_col),
+        ("charge", &import.charge_col),
+    ] {
+        if let Some(c) = col {
+            notes.push(format!("{what} column given: {c}"));
+        }
+    }
+    for (what, unit) in [
+        ("time", &import.time_unit),
+        ("current", &import.current_unit),
+        ("potential", &import.potential_unit),
+    ] {
+        if let Some(u) = unit {
+            notes.push(format!("{what} unit given: {}", u.symbol));
+        }
+    }
+    match import.step_at {
+        OnsetChoice::Detect => {}
+        OnsetChoice::FileClock => notes.push("step onset: the file's own clock kept".to_owned()),
+        OnsetChoice::At(t) => notes.push(format!("step onset given: {t} s on the file's clock")),
+    }
+    notes
+}
+
+/// Reads a file again for its trace, which the plots and the processing log need (`fit_all`
+/// keeps only the results). The bytes must be the ones that were fitted: their SHA-256 is
+/// compared with the fit's.
+fn reread(run: &Run, path: &std::path::Path, options: &ImportOptions) -> Result<Trace, String> {
+    let bytes = std::fs::read(path)
+        .map_err(|e| format!("cannot read the file again ({e}): {}", run.file))?;
+    let sha = format!("{:x}", Sha256::digest(&bytes));
+    if run.sha256.as_deref() != Some(sha.as_str()) {
+        return Err(format!(
+            "the file changed while the report was being made; run the report again: {}",
+            run.file
+        ));
+    }
+    import_bytes(&run.file, &bytes, options).map_err(|e| e.to_string())
+}
+
+pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
+    if args.fit.json_output() {
+        bail!(
+            "--json: report writes HTML (the same results as JSON are embedded in it); use fit --json for JSON alone"
+        );
+    }
+    let cell = args.fit.cell()?;
+    let options = args.fit.options()?;
+    let files = args.fit.files();
+    let runs = fit::fit_all(files, args.fit.import(), &cell, &options);
+    let import_options = args.fit.import().options();
+    let traces: Vec<Result<Trace, String>> = files
+        .par_iter()
+        .zip(&runs)
+        .map(|(path, run)| reread(run, path, &import_options))
+        .collect();
+    let steps: Vec<Option<diffusor_trace::Segment>> = traces
+        .iter()
+        .map(|t| t.as_ref().ok().and_then(|t| t.steps().next().cloned()))
+        .collect();
+    let inputs: Vec<RunInput<'_>> = runs
+        .iter()
+        .zip(&traces)
+        .zip(&steps)
+        .map(|((run, trace), step)| {
+            let outcome = match (&run.result, trace, step) {
+                (Ok(result), Ok(trace), Some(segment)) => Outcome::Fitted {
+                    trace,
+                    segment,
+                    result,
+                },
+                (Err(error), trace, _) => Outcome::Failed {
+                    trace: trace.as_ref().ok(),
+                    error,
+                },
+                (Ok(_), Err(error), _) => Outcome::Failed { trace: None, error },
+                (Ok(_), Ok(trace), None) => Outcome::Failed {
+                    trace: Some(trace),
+                    error: "no potential step found",
+                },
+            };
+            RunInput {
+                label: &run.file,
+                sha256: run.sha256.as_deref(),
+                outcome,
+            }
+        })
+        .collect();
+    let failed = inputs
+        .iter()
+        .filter(|r| matches!(r.outcome, Outcome::Failed { .. }))
+        .count();
+
+    // The same document `compare --json` prints, embedded for whoever wants the numbers.
+    let replicates_json = match replicates(&inputs) {
+        None => Value::Null,
+        Some(rep) => match &rep.summary {
+            Ok(s) => json!({"quantity": rep.quantity, "unit": rep.unit, "summary": s}),
+            Err(e) => json!({"quantity": rep.quantity, "unit": rep.unit, "error": e}),
+        },
+    };
+    let results = json!({
+        "schema": "diffusor.fit/1",
+        "version": env!("CARGO_PKG_VERSION"),
+        "runs": runs.iter().map(|r| fit::run_json(r, &cell)).collect::<Vec<_>>(),
+        "replicates": replicates_json,
+    });
+    let results = serde_json::to_string_pretty(&results)?;
+    let now = SystemTime::now()
+        .duration_since(UNIX_EPOCH)
+        .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));
+    let generated = utc_timestamp(now);
+    let notes = import_notes(args.fit.import());
+    let page = render(&ReportInput {
+        version: env!("CARGO_PKG_VERSION"),
+        generated_utc: &generated,
+        cell: &cell,
+        options: &options,
+        import_notes: &notes,
+        runs: &inputs,
+        results_json: Some(&results),
+    });
+    std::fs::write(&args.output, &page)
+        .with_context(|| format!("cannot write the report: {}", args.output.display()))?;
+    println!(
+        "wrote {}: {} run{}, {:.1} MB",
+        args.output.display(),
+        inputs.len(),
+        if inputs.len() == 1 { "" } else { "s" },
+        page.len() as f64 / 1e6
+    );
+    if failed > 0 {
+        eprintln!(
+            "diffusor: {failed} of {} file{} could not be analysed (the report says why)",
+            inputs.len(),
+            if inputs.len() == 1 { "" } else { "s" }
+        );
+    }
+    Ok(if failed > 0 {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::utc_timestamp;
+
+    #[test]
+    fn timestamps_are_utc_civil_dates() {
+        // The epoch; 2000-02-29 is day 11 016 (a leap day in a century year divisible by 400);
+        // 1 700 000 000 s is 2023-11-14 22:13:20 UTC; one second before the epoch.
+        assert_eq!(utc_timestamp(0), "1970-01-01 00:00:00 UTC");
+        assert_eq!(utc_timestamp(11_016 * 86_400), "2000-02-29 00:00:00 UTC");
+        assert_eq!(utc_timestamp(1_700_000_000), "2023-11-14 22:13:20 UTC");
+        assert_eq!(utc_timestamp(-1), "1969-12-31 23:59:59 UTC");
+        // 2100 is not a leap year: the day after 28 February is 1 March.
+        assert_eq!(utc_timestamp(4_107_542_400), "2100-03-01 00:00:00 UTC");
+    }
+}
