@@ -672,6 +672,7 @@ pub fn analyze_data(
                     time[excess_points],
                     BoundReason::ChargingExcess {
                         points: excess_points,
+                        tau_resolved: charging.as_ref().is_some_and(|c| c.fitted),
                     },
                 ));
             }

@@ -88,6 +88,8 @@ pub enum BoundReason {
     ChargingExcess {
         /// Leading points excluded.
         points: usize,
+        /// Whether τ itself was resolved (then the excess rule reached further than k·τ).
+        tau_resolved: bool,
     },
     /// k times the instrument rise time.
     RiseTime {
@@ -137,8 +139,16 @@ impl BoundReason {
                 "where the fitted charging current falls below {} % of the faradaic current",
                 fraction * 100.0
             ),
-            BoundReason::ChargingExcess { points } => format!(
-                "after the first {points} points, whose current exceeds the Cottrell line significantly (charging; τ not resolvable at this sampling rate)"
+            BoundReason::ChargingExcess {
+                points,
+                tau_resolved,
+            } => format!(
+                "after the first {points} points, whose current exceeds the Cottrell line significantly ({})",
+                if *tau_resolved {
+                    "charging; this reaches further than k·τ and the 0.1 % point of the fitted charging current"
+                } else {
+                    "charging; τ not resolvable at this sampling rate"
+                }
             ),
             BoundReason::RiseTime { rise_time_s, k } => format!(
                 "{k} × the instrument rise time {}",
