@@ -629,7 +629,13 @@ pub fn analyze_data(
             } else {
                 let early = pa.clamp(6, 400).min(n);
                 let shifted: Vec<f64> = time[..early].iter().map(|t| t - t0_p).collect();
-                if let Some(ch) = estimate_charging(&shifted, &current[..early], s_p, b_p) {
+                if let Some(ch) = estimate_charging(
+                    &shifted,
+                    &current[..early],
+                    s_p,
+                    b_p,
+                    provisional.residual_sd,
+                ) {
                     candidates.push((
                         wopt.k_tau * ch.tau_s,
                         BoundReason::ChargingTime {

@@ -215,12 +215,14 @@ pub struct Charging {
 }
 
 /// Fits exponential plus Cottrell to the first points; `None` when τ is not resolved (the
-/// amplitude or τ not significant at 3 standard errors, or the fit fails).
+/// amplitude or τ not significant at 3 standard errors, the charging current at the second
+/// sample below 3 noise standard deviations, or the fit fails).
 pub(crate) fn estimate_charging(
     time_s: &[f64],
     current_a: &[f64],
     slope: f64,
     intercept: f64,
+    noise_sd_a: f64,
 ) -> Option<Charging> {
     let n = time_s.len();
     if n < 6 {
@@ -249,6 +251,12 @@ pub(crate) fn estimate_charging(
     let tau = ln_tau.exp();
     // τ must lie inside the data, not beyond them, or it is an artefact of the fit.
     if !(tau > 0.0 && tau < time_s[n - 1]) {
+        return None;
+    }
+    // And the charging current must stand above the noise at the second sample too: an
+    // exponential that only touches the first point fits that point's noise, not a τ (seen on
+    // pure Cottrell data).
+    if !(ln_a.exp() * (-time_s[1] / tau).exp() > 3.0 * noise_sd_a) {
         return None;
     }
     Some(Charging {

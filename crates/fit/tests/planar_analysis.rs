@@ -563,3 +563,21 @@ fn a_microelectrode_is_refused_with_the_reason_and_what_to_use() {
         "{text}"
     );
 }
+
+#[test]
+fn pure_cottrell_shows_no_charging() {
+    // No charging term at all: no τ may be reported.
+    let time = grid(5e-5, 40_000);
+    let current = noisy(&time, 5e-9, 21, cottrell);
+    let r = analyze_data(
+        &time,
+        &current,
+        &cell(),
+        &options(),
+        "none".into(),
+        Vec::new(),
+    )
+    .expect("ok");
+    assert!(r.charging.is_none(), "{:?}", r.charging);
+    assert_eq!(r.window.lo.reason, BoundReason::FirstSample);
+}
