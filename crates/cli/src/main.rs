@@ -1,5 +1,6 @@
 //! The `diffusor` command line: batch work on potential-step transients.
 
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
@@ -10,12 +11,13 @@ mod import_args;
 mod inspect;
 mod quantity;
 
-/// Diffusion coefficients from potential-step chronoamperometry.
+/// Diffusion coefficients from potential-step chronoamperometry. With no command, opens the
+/// desktop window.
 #[derive(Debug, Parser)]
 #[command(name = "diffusor", version, about, long_about = None)]
 struct Cli {
     #[command(subcommand)]
-    command: Command,
+    command: Option<Command>,
 }
 
 #[derive(Debug, Subcommand)]
@@ -29,14 +31,23 @@ enum Command {
     /// Fit every file as `fit` does and compare the runs as replicates: mean, SD, RSD, 95 %
     /// interval, weighted mean with the Birge ratio, and Grubbs' outlier test naming the run.
     Compare(fit::Args),
+    /// Open the desktop window with these files loaded (the bundled demo set when none are
+    /// named).
+    Gui {
+        /// Files to open.
+        #[arg(value_name = "FILE")]
+        files: Vec<PathBuf>,
+    },
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
-        Command::Inspect(args) => inspect::run(&args),
-        Command::Fit(args) => fit::run(&args),
-        Command::Compare(args) => compare::run(&args),
+        Some(Command::Inspect(args)) => inspect::run(&args),
+        Some(Command::Fit(args)) => fit::run(&args),
+        Some(Command::Compare(args)) => compare::run(&args),
+        Some(Command::Gui { files }) => gui(files),
+        None => gui(Vec::new()),
     };
     match result {
         Ok(code) => code,
@@ -45,4 +56,13 @@ fn main() -> ExitCode {
             ExitCode::from(2)
         }
     }
+}
+
+fn gui(files: Vec<PathBuf>) -> anyhow::Result<ExitCode> {
+    diffusor_gui::run(files).map_err(|e| {
+        anyhow::anyhow!(
+            "cannot open the window ({e}); the command line works without one: diffusor --help"
+        )
+    })?;
+    Ok(ExitCode::SUCCESS)
 }
