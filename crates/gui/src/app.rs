@@ -218,6 +218,11 @@ impl DiffusorApp {
         !self.queue.is_empty() || self.runs.iter().any(Run::busy)
     }
 
+    /// The plots' view state.
+    pub fn plots(&self) -> &PlotsPanel {
+        &self.plots
+    }
+
     /// The view shown in the central area.
     pub fn view(&self) -> View {
         self.view
@@ -502,14 +507,21 @@ impl DiffusorApp {
                     {
                         self.help.open = !self.help.open;
                     }
-                    let label = if ui.visuals().dark_mode {
-                        "Light theme"
-                    } else {
-                        "Dark theme"
-                    };
-                    if ui.button(label).on_hover_text("Ctrl+T").clicked() {
-                        let ctx = ui.ctx().clone();
-                        self.toggle_theme(&ctx);
+                    ui.separator();
+                    // Right to left: Dark is drawn before Light so they read "Light Dark".
+                    let dark = ui.visuals().dark_mode;
+                    for (choice, name, on) in [
+                        (ThemeChoice::Dark, "Dark", dark),
+                        (ThemeChoice::Light, "Light", !dark),
+                    ] {
+                        if ui
+                            .selectable_label(on, name)
+                            .on_hover_text("Theme (Ctrl+T switches)")
+                            .clicked()
+                        {
+                            self.prefs.theme = choice;
+                            apply_theme(ui.ctx(), choice);
+                        }
                     }
                 });
             });

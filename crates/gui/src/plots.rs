@@ -85,6 +85,8 @@ pub struct PlotsPanel {
     /// The fit the residual and Cottrell views were last fitted to, so they re-frame when it
     /// changes.
     framed: Option<(RunId, u64)>,
+    /// How the transient mapped data to the screen in the last frame.
+    transient: Option<egui_plot::PlotTransform>,
 }
 
 /// A power-of-thousand prefix for values of typical size `magnitude`: the factor to divide by
@@ -212,7 +214,7 @@ fn ink(ui: &egui::Ui) -> Color32 {
 
 fn shade(ui: &egui::Ui) -> Color32 {
     if ui.visuals().dark_mode {
-        Color32::from_white_alpha(22)
+        Color32::from_white_alpha(34)
     } else {
         Color32::from_black_alpha(20)
     }
@@ -265,6 +267,21 @@ pub struct PlotInput<'a> {
 }
 
 impl PlotsPanel {
+    /// Where a time `t_s` after the step was drawn on the transient in the last frame, as a
+    /// point on the screen halfway up the plot (for tests and tools that drive the window).
+    pub fn transient_point(&self, t_s: f64) -> Option<egui::Pos2> {
+        let tr = self.transient.as_ref()?;
+        let x = tr.position_from_point_x(self.prefs.time.to_plot(t_s));
+        Some(egui::pos2(x, tr.frame().center().y))
+    }
+
+    /// The time after the step at screen abscissa `x` on the transient, in s.
+    pub fn transient_time_at(&self, x: f32) -> Option<f64> {
+        let tr = self.transient.as_ref()?;
+        let p = tr.value_from_position(egui::pos2(x, tr.frame().center().y));
+        Some(self.prefs.time.from_plot(p.x))
+    }
+
     /// Draws the axis choices and the four plots; returns a bound the user dropped on the
     /// transient.
     pub fn ui(&mut self, ui: &mut egui::Ui, input: &PlotInput<'_>) -> Option<BoundDrag> {
@@ -302,7 +319,7 @@ impl PlotsPanel {
                 self.residuals_ui(ui, focused, reframe);
             });
             cols[1].allocate_ui(egui::vec2(cols[1].available_width(), h), |ui| {
-                plateau_ui(ui, input, focused, self.prefs.time == Scale::Log);
+                plateau_ui(ui, input, focused, self.prefs.time == Scale::Log, reframe);
             });
         });
         dropped
@@ -383,7 +400,7 @@ impl PlotsPanel {
         let mut hover = None;
         let mut new_drag = self.drag;
         let mut dropped = None;
-        plot.show(ui, |plot_ui| {
+        let shown = plot.show(ui, |plot_ui| {
             for run in ordered(input.runs, focus_id) {
                 let Some(data) = run.data() else { continue };
                 let is_focus = Some(run.id) == focus_id;
@@ -403,6 +420,7 @@ impl PlotsPanel {
             let (Some(run), Some((lo, hi, convection))) = (focused, window) else {
                 return;
             };
+            let (fit_lo, fit_hi) = (lo, hi);
             let lo = if let Some((Which::Lo, t)) = drag {
                 t
             } else {
@@ -467,29 +485,41 @@ impl PlotsPanel {
                     .stroke(Stroke::new(if active { 3.0 } else { 1.5 }, ink)),
                 );
             }
-            let response = plot_ui.response().clone();
-            if response.drag_started()
+            // The grab starts on the press (egui's drag only starts once the pointer has moved,
+            // by which time it may have left the line) and ends on the release.
+            let (pressed, down, released) = plot_ui.ctx().input(|i| {
+                (
+                    i.pointer.primary_pressed(),
+                    i.pointer.primary_down(),
+                    i.pointer.primary_released(),
+                )
+            });
+            if pressed
+                && plot_ui.response().hovered()
                 && let Some(w) = hover
             {
                 new_drag = Some((w, if w == Which::Lo { lo } else { hi }));
             }
-            if let Some((w, _)) = new_drag
-                && let Some(c) = plot_ui.pointer_coordinate()
+            // Not `pointer_coordinate`, which assumes the drag pans the view; here it does not.
+            let latest = plot_ui.ctx().input(|i| i.pointer.latest_pos());
+            if down
+                && let Some((w, _)) = new_drag
+                && let Some(p) = latest
             {
-                let t = time_scale.from_plot(c.x);
+                let t = time_scale.from_plot(plot_ui.plot_from_screen(p).x);
                 if t > 0.0 && t.is_finite() {
                     new_drag = Some((w, t));
                 }
             }
-            if response.drag_stopped()
-                && let Some((which, time_s)) = new_drag
-            {
-                dropped = Some(BoundDrag {
-                    id: run.id,
-                    which,
-                    time_s,
-                });
-                new_drag = None;
+            if released && let Some((which, time_s)) = new_drag.take() {
+                let before = if which == Which::Lo { fit_lo } else { fit_hi };
+                if time_s != before {
+                    dropped = Some(BoundDrag {
+                        id: run.id,
+                        which,
+                        time_s,
+                    });
+                }
             }
             if hover.is_some() || new_drag.is_some() {
                 plot_ui
@@ -497,9 +527,10 @@ impl PlotsPanel {
                     .set_cursor_icon(egui::CursorIcon::ResizeHorizontal);
             }
         });
+        self.transient = Some(shown.transform);
         self.hover = hover;
-        self.drag = if dropped.is_some() { None } else { new_drag };
-        if !ui.input(|i| i.pointer.any_down()) && dropped.is_none() {
+        self.drag = new_drag;
+        if !ui.input(|i| i.pointer.primary_down()) {
             self.drag = None;
         }
         dropped
@@ -651,7 +682,13 @@ fn cottrell_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, 
     });
 }
 
-fn plateau_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, linked: bool) {
+fn plateau_ui(
+    ui: &mut egui::Ui,
+    input: &PlotInput<'_>,
+    focused: Option<&Run>,
+    linked: bool,
+    reframe: bool,
+) {
     ui.strong("I·√t against log t (plateau check)");
     let fit = focused.and_then(|r| r.fit_view().map(|f| (r, f)));
     let s = fit
@@ -660,6 +697,17 @@ fn plateau_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, l
     let (scale, unit) = prefixed(s, "A");
     let mut plot =
         log_time_axis(Plot::new("plateau")).y_axis_label(format!("I·√(t − t0) / {unit}·s^½"));
+    // Framed on the plateau bins (which start at the window's start) and 2 % of S either side,
+    // so a per-cent departure is plain; the charging spike rises out of the top.
+    if let Some((_, f)) = fit {
+        let bins = &f.result.plateau.bin_value;
+        let lo = bins.iter().copied().fold(s, f64::min);
+        let hi = bins.iter().copied().fold(s, f64::max);
+        let pad = 0.15 * (hi - lo) + 0.02 * s;
+        if hi + pad > lo - pad {
+            plot = plot.default_y_bounds((lo - pad) / scale, (hi + pad) / scale);
+        }
+    }
     if linked {
         plot = plot
             .link_axis(Id::unique("time-axis-log"), Vec2b::new(true, false))
@@ -671,6 +719,10 @@ fn plateau_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, l
     let departs = Color32::from_rgb(0xD5, 0x5E, 0x00);
     let z_limit = diffusor_fit::window::WindowOptions::default().departure_z;
     plot.show(ui, |plot_ui| {
+        if reframe {
+            let x = plot_ui.auto_bounds().x;
+            plot_ui.set_auto_bounds(Vec2b::new(x, true));
+        }
         for run in ordered(input.runs, focus_id) {
             let Some(data) = run.data() else { continue };
             let is_focus = Some(run.id) == focus_id;

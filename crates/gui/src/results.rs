@@ -273,20 +273,17 @@ fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&PlanarResult>) -> Opti
     if let Some(r) = r {
         let w = &r.window;
         for (side, b) in [("starts", &w.lo), ("ends", &w.hi)] {
-            let how = if b.automatic {
-                "automatic"
-            } else {
-                "set by you"
-            };
-            wrapped(
-                ui,
+            let lead = if side == "starts" { "Window" } else { "and" };
+            let text = if b.automatic {
                 format!(
-                    "{} {side} at {} ({how}): {}",
-                    if side == "starts" { "Window" } else { "and" },
+                    "{lead} {side} at {} (automatic): {}",
                     format::time(b.time_s),
                     b.description
-                ),
-            );
+                )
+            } else {
+                format!("{lead} {side} at {} (set by you)", format::time(b.time_s))
+            };
+            wrapped(ui, text);
         }
         ui.label(format!("{} points in the window", w.points));
     }

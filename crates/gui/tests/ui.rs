@@ -220,6 +220,53 @@ fn typing_a_window_bound_refits_and_the_automatic_window_comes_back() {
 }
 
 #[test]
+fn dragging_the_window_start_on_the_transient_refits() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let name = "planar-rep1.csv (demo)";
+    let before = run_named(&h, name).fit_view().expect("fit").clone();
+    let lo = before.result.window.lo.time_s;
+    let grab = h
+        .state()
+        .plots()
+        .transient_point(lo)
+        .expect("transient drawn");
+    let to = grab + egui::vec2(40.0, 0.0);
+    let target = h
+        .state()
+        .plots()
+        .transient_time_at(to.x)
+        .expect("transient drawn");
+    // Press on the line, move right in steps, let go: the plot must not pan meanwhile.
+    h.hover_at(grab);
+    h.step();
+    h.drag_at(grab);
+    h.step();
+    for dx in [10.0, 20.0, 30.0, 40.0] {
+        h.hover_at(grab + egui::vec2(dx, 0.0));
+        h.step();
+    }
+    h.drop_at(to);
+    h.step();
+    settle(&mut h);
+    let after = run_named(&h, name).fit_view().expect("fit").clone();
+    let w = &after.result.window;
+    assert!(!w.lo.automatic, "the start is now the user's");
+    assert!(w.hi.automatic, "the end stays automatic");
+    // The bound lands where the pointer was let go (the view did not move under it).
+    assert!(
+        (w.lo.time_s / target - 1.0).abs() < 1e-9,
+        "{} vs {target}",
+        w.lo.time_s
+    );
+    assert!(w.lo.time_s > lo && w.points < before.result.window.points);
+    h.get_by_label(&format!(
+        "Window starts at {} (set by you)",
+        diffusor_gui::format::time(w.lo.time_s)
+    ));
+}
+
+#[test]
 fn a_broken_file_shows_its_error_beside_the_run() {
     let mut h = harness(DiffusorApp::demo());
     settle(&mut h);
