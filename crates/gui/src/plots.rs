@@ -53,6 +53,10 @@ pub struct PlotPrefs {
     pub current: Scale,
 }
 
+/// Width of every plot's y tick labels, in points, so that plots stacked in a column share
+/// their time axis on screen as well as in value.
+const Y_AXIS_WIDTH: f32 = 64.0;
+
 /// Which bound of the window.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Which {
@@ -112,19 +116,30 @@ pub fn prefixed(magnitude: f64, unit: &str) -> (f64, String) {
 }
 
 /// Grid marks for a log₁₀ axis: every decade, and 2…9 within each decade when few decades
-/// are visible.
+/// are visible. When decades are too close for a label each (`100 µs` needs about 45 points),
+/// only every second or third decade is a labelled mark; the others stay as plain grid lines.
 pub fn log_marks(input: &GridInput) -> Vec<GridMark> {
     let (lo, hi) = input.bounds;
     if !(hi > lo && lo.is_finite() && hi.is_finite()) || hi - lo > 60.0 {
         return Vec::new();
     }
+    // `base_step_size` is the plot length of egui_plot's smallest grid spacing, 8 points.
+    let points_per_decade = 8.0 / input.base_step_size.max(f64::MIN_POSITIVE);
+    let step = if points_per_decade >= 45.0 && hi - lo <= 12.0 {
+        1
+    } else if points_per_decade >= 23.0 {
+        2
+    } else {
+        3
+    };
     let mut marks = Vec::new();
-    let step = if hi - lo > 12.0 { 3 } else { 1 };
     for d in (lo.floor() as i32)..=(hi.ceil() as i32) {
-        if d.rem_euclid(step) == 0 && f64::from(d) >= lo && f64::from(d) <= hi {
+        if f64::from(d) >= lo && f64::from(d) <= hi {
+            // A decade between labelled ones gets a step too small for a label.
+            let labelled = d.rem_euclid(step) == 0;
             marks.push(GridMark {
                 value: f64::from(d),
-                step_size: f64::from(step),
+                step_size: if labelled { f64::from(step) } else { 0.5 },
             });
         }
         if hi - lo < 8.0 {
@@ -371,7 +386,7 @@ impl PlotsPanel {
             .abs();
         let (i_scale, i_unit) = prefixed(magnitude, "A");
         let mut plot = self
-            .time_axis(Plot::new("transient"))
+            .time_axis(Plot::new("transient").y_axis_min_width(Y_AXIS_WIDTH))
             .link_axis(self.time_link(), Vec2b::new(true, false))
             .link_cursor(self.time_link(), Vec2b::new(true, false))
             .allow_drag(self.hover.is_none() && self.drag.is_none());
@@ -544,7 +559,7 @@ impl PlotsPanel {
         let extent = fit.map_or(1.0, |(_, f)| f.window_residual_max_a / scale * 1.25);
         let time_scale = self.prefs.time;
         let plot = self
-            .time_axis(Plot::new("residuals"))
+            .time_axis(Plot::new("residuals").y_axis_min_width(Y_AXIS_WIDTH))
             .link_axis(self.time_link(), Vec2b::new(true, false))
             .link_cursor(self.time_link(), Vec2b::new(true, false))
             .y_axis_label(format!("I − I_fit / {unit}"))
@@ -603,6 +618,7 @@ fn cottrell_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, 
     });
     let (scale, unit) = prefixed(lo_point.map_or(1e-6, |p| p.1.abs()), "A");
     let mut plot = Plot::new("cottrell")
+        .y_axis_min_width(Y_AXIS_WIDTH)
         .x_axis_label("(t − t0)^-½ / s^-½")
         .y_axis_label(format!("I / {unit}"));
     if let Some((x_lo, i_lo)) = lo_point
@@ -695,8 +711,8 @@ fn plateau_ui(
         .and_then(|(_, f)| f.result.params.iter().find(|p| p.symbol == "S"))
         .map_or(1e-6, |p| p.estimate.value.abs());
     let (scale, unit) = prefixed(s, "A");
-    let mut plot =
-        log_time_axis(Plot::new("plateau")).y_axis_label(format!("I·√(t − t0) / {unit}·s^½"));
+    let mut plot = log_time_axis(Plot::new("plateau").y_axis_min_width(Y_AXIS_WIDTH))
+        .y_axis_label(format!("I·√(t − t0) / {unit}·s^½"));
     // Framed on the plateau bins (which start at the window's start) and 2 % of S either side,
     // so a per-cent departure is plain; the charging spike rises out of the top.
     if let Some((_, f)) = fit {
@@ -840,5 +856,16 @@ mod tests {
             ),
             "10 ms"
         );
+        // Decades 30 points apart: every second one carries a label.
+        let crowded = log_marks(&GridInput {
+            bounds: (-5.0, 1.0),
+            base_step_size: 8.0 / 30.0,
+        });
+        let labelled: Vec<f64> = crowded
+            .iter()
+            .filter(|m| m.step_size == 2.0)
+            .map(|m| m.value)
+            .collect();
+        assert_eq!(labelled, vec![-4.0, -2.0, 0.0]);
     }
 }

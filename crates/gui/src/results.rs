@@ -8,7 +8,7 @@ use std::ops::RangeInclusive;
 
 use diffusor_fit::planar::{Estimate, PlanarResult, Sensitivity};
 use eframe::egui::{self, Color32, RichText};
-use egui_plot::{HLine, Legend, Line, MarkerShape, Plot, Points, Span, VLine};
+use egui_plot::{HLine, Line, MarkerShape, Plot, Points, Span, VLine};
 
 use crate::format::{self, percent, plain, sci, sci_interval};
 use crate::plots::{Scale, log_time_axis, prefixed};
@@ -483,19 +483,28 @@ fn sensitivity_ui(ui: &mut egui::Ui, r: &PlanarResult, s: &Sensitivity) {
             })
             .collect()
     };
-    let lower = series(&s.lower);
-    let upper = series(&s.upper);
     let ink = ui.visuals().strong_text_color();
     let (c_lo, c_hi) = (
         Color32::from_rgb(0x00, 0x72, 0xB2),
         Color32::from_rgb(0xD5, 0x5E, 0x00),
     );
+    ui.horizontal_wrapped(|ui| {
+        ui.label(RichText::new("● start moved (end fixed)").color(c_lo));
+        ui.label(RichText::new("● end moved (start fixed)").color(c_hi));
+        ui.weak("— line and band: the result and its 95 % interval; dashed: the chosen bounds");
+    });
+    let lower = series(&s.lower);
+    let upper = series(&s.upper);
     log_time_axis(Plot::new("sensitivity"))
         .x_axis_label("bound moved, t (log scale)")
         .y_axis_label(label)
         .y_axis_formatter(|m, _: &RangeInclusive<f64>| plain(m.value, 5))
         .height(190.0)
-        .legend(Legend::default().position(egui_plot::Corner::LeftBottom))
+        // It sits in a scrolling panel: the wheel scrolls the panel, not the plot.
+        .allow_scroll(false)
+        .allow_zoom(false)
+        .allow_drag(false)
+        .allow_boxed_zoom(false)
         .show(ui, |plot_ui| {
             if let Some(d) = headline(r) {
                 let e = d.1;

@@ -267,6 +267,85 @@ fn dragging_the_window_start_on_the_transient_refits() {
 }
 
 #[test]
+fn an_impossible_entry_is_flagged_where_it_is_typed_and_the_results_are_marked() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let before = d_cm2_s(run_named(&h, "planar-rep1.csv (demo)"));
+    retype(&mut h, "Area A", "-1");
+    settle(&mut h);
+    // Cell::validate's message, quoting the number as typed, under the field.
+    h.get_by_label("the area must be positive, not -1");
+    h.get_by_label_contains("The cell entries have a problem");
+    // Nothing was refitted with the impossible cell; the last good result stays.
+    assert_eq!(d_cm2_s(run_named(&h, "planar-rep1.csv (demo)")), before);
+}
+
+#[test]
+fn a_known_d_gives_the_electroactive_area() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.get_by_label("use it (inverse mode: find n·A·C)").click();
+    h.run();
+    // sample-data/README.md: with the nominal A and C the fit returns D_app = 7.0105 × 10⁻⁶
+    // cm²/s for planar-rep1; taking that D as known must give back the nominal 0.0707 cm².
+    retype(&mut h, "D", "7.0105e-6");
+    settle(&mut h);
+    let r = &run_named(&h, "planar-rep1.csv (demo)")
+        .fit_view()
+        .expect("fit")
+        .result;
+    assert_eq!(r.mode, "inverse");
+    let area_cm2 = r.area_m2.expect("area").value * 1e4;
+    assert!((area_cm2 / 0.0707 - 1.0).abs() < 1e-3, "A = {area_cm2}");
+    h.get_by_label(&format!("A (electroactive) = {} cm²", sci(area_cm2, 4)));
+}
+
+#[test]
+fn shortcuts_switch_views_and_restore_the_automatic_window() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num2);
+    h.run();
+    assert_eq!(h.state().view(), View::Replicates);
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num1);
+    h.run();
+    assert_eq!(h.state().view(), View::Fit);
+
+    let name = "planar-rep1.csv (demo)";
+    retype(&mut h, "Start (s)", "0.5");
+    settle(&mut h);
+    assert!(
+        !run_named(&h, name)
+            .fit_view()
+            .expect("fit")
+            .result
+            .window
+            .lo
+            .automatic
+    );
+    h.key_press_modifiers(Modifiers::COMMAND | Modifiers::SHIFT, Key::R);
+    settle(&mut h);
+    assert!(
+        run_named(&h, name)
+            .fit_view()
+            .expect("fit")
+            .result
+            .window
+            .lo
+            .automatic
+    );
+
+    let theme = h.ctx.theme();
+    h.key_press_modifiers(Modifiers::COMMAND, Key::T);
+    h.run();
+    assert_ne!(h.ctx.theme(), theme, "Ctrl+T switches the theme");
+
+    h.key_press(Key::F1);
+    h.run();
+    h.get_by_label("Help & notes");
+}
+
+#[test]
 fn a_broken_file_shows_its_error_beside_the_run() {
     let mut h = harness(DiffusorApp::demo());
     settle(&mut h);
