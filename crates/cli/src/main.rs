@@ -1,5 +1,6 @@
 //! The `diffusor` command line: batch work on potential-step transients.
 
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
@@ -11,12 +12,13 @@ mod inspect;
 mod quantity;
 mod report;
 
-/// Diffusion coefficients from potential-step chronoamperometry.
+/// Diffusion coefficients from potential-step chronoamperometry. With no command, opens the
+/// desktop window.
 #[derive(Debug, Parser)]
 #[command(name = "diffusor", version, about, long_about = None)]
 struct Cli {
     #[command(subcommand)]
-    command: Command,
+    command: Option<Command>,
 }
 
 #[derive(Debug, Subcommand)]
@@ -32,15 +34,24 @@ enum Command {
     Compare(fit::Args),
     /// Fit every file as `fit` does and write one self-contained HTML report (`-o FILE`).
     Report(report::Args),
+    /// Open the desktop window with these files loaded (the bundled demo set when none are
+    /// named).
+    Gui {
+        /// Files to open.
+        #[arg(value_name = "FILE")]
+        files: Vec<PathBuf>,
+    },
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
-        Command::Inspect(args) => inspect::run(&args),
-        Command::Fit(args) => fit::run(&args),
-        Command::Compare(args) => compare::run(&args),
-        Command::Report(args) => report::run(&args),
+        Some(Command::Inspect(args)) => inspect::run(&args),
+        Some(Command::Fit(args)) => fit::run(&args),
+        Some(Command::Compare(args)) => compare::run(&args),
+        Some(Command::Report(args)) => report::run(&args),
+        Some(Command::Gui { files }) => gui(files),
+        None => gui(Vec::new()),
     };
     match result {
         Ok(code) => code,
@@ -49,4 +60,13 @@ fn main() -> ExitCode {
             ExitCode::from(2)
         }
     }
+}
+
+fn gui(files: Vec<PathBuf>) -> anyhow::Result<ExitCode> {
+    diffusor_gui::run(files).map_err(|e| {
+        anyhow::anyhow!(
+            "cannot open the window ({e}); the command line works without one: diffusor --help"
+        )
+    })?;
+    Ok(ExitCode::SUCCESS)
 }

@@ -1,0 +1,681 @@
+//! The application: the runs, the panels around them, the background worker, and the glue
+//! that turns an edit into a refit.
+
+use std::path::{Path, PathBuf};
+use std::sync::mpsc::{Receiver, TryRecvError, channel};
+
+use diffusor_fit::cell::Cell;
+use diffusor_fit::window::BoundChoice;
+use eframe::egui::{self, RichText};
+use serde::{Deserialize, Serialize};
+
+use crate::cell_form::{CellForm, CellPanel, FitChoices};
+use crate::compare::ComparePanel;
+use crate::help::{self, HelpWindow};
+use crate::plots::{PlotInput, PlotPrefs, PlotsPanel, Which};
+use crate::results::{CAUTION, ResultAction, ResultPanel};
+use crate::runs::{FitState, Import, Origin, PALETTE, Run, RunId};
+use crate::runs_panel::{RunsAction, RunsPanel};
+use crate::worker::{Job, Outcome, Source, Worker};
+
+/// The key the preferences are stored under; the suffix is their schema version.
+pub const PREFS_KEY: &str = "diffusor.prefs/1";
+
+/// Light, dark, or as the system says.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+pub enum ThemeChoice {
+    /// Follow the system.
+    #[default]
+    System,
+    /// Light.
+    Light,
+    /// Dark.
+    Dark,
+}
+
+/// What the window remembers between starts (the runs and the cell are not: a start shows the
+/// demo, or the files named on the command line).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(default)]
+pub struct Prefs {
+    /// The theme.
+    pub theme: ThemeChoice,
+    /// Axis choices of the plots.
+    pub plots: PlotPrefs,
+}
+
+/// The two views of the central area.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum View {
+    /// One run's fit: four plots.
+    #[default]
+    Fit,
+    /// The selected runs compared as replicates.
+    Replicates,
+}
+
+/// The Diffusor window. Drive it with [`DiffusorApp::ui`]; [`crate::run`] puts it in a native
+/// window.
+#[derive(Debug)]
+pub struct DiffusorApp {
+    prefs: Prefs,
+    cell: CellPanel,
+    runs: Vec<Run>,
+    focus: Option<RunId>,
+    view: View,
+    runs_panel: RunsPanel,
+    plots: PlotsPanel,
+    results: ResultPanel,
+    compare: ComparePanel,
+    help: HelpWindow,
+    worker: Option<Worker>,
+    queue: Vec<Job>,
+    next_id: u64,
+    /// The cell and choices the runs were last fitted with.
+    fitted_with: Option<(Cell, FitChoices)>,
+    /// The cell entries have a problem, so results are for the last valid ones.
+    stale: bool,
+    /// Paths coming back from the open dialog's thread.
+    dialog: Option<Receiver<Option<Vec<PathBuf>>>>,
+    status: Option<String>,
+    styled: bool,
+}
+
+impl DiffusorApp {
+    /// A window with `files` loaded, or the bundled demo set (fitted with the demo's cell)
+    /// when there are none.
+    pub fn new(files: &[PathBuf]) -> Self {
+        let mut app = DiffusorApp {
+            prefs: Prefs::default(),
+            cell: CellPanel::default(),
+            runs: Vec::new(),
+            focus: None,
+            view: View::Fit,
+            runs_panel: RunsPanel::default(),
+            plots: PlotsPanel::default(),
+            results: ResultPanel::default(),
+            compare: ComparePanel::default(),
+            help: HelpWindow::default(),
+            worker: None,
+            queue: Vec::new(),
+            next_id: 1,
+            fitted_with: None,
+            stale: false,
+            dialog: None,
+            status: None,
+            styled: false,
+        };
+        if files.is_empty() {
+            app.load_demo();
+        } else {
+            for f in files {
+                app.open_path(f);
+            }
+        }
+        app
+    }
+
+    /// The window as a fresh start shows it: the demo set with the demo's cell.
+    pub fn demo() -> Self {
+        Self::new(&[])
+    }
+
+    /// Applies remembered preferences.
+    pub fn with_prefs(mut self, prefs: Prefs) -> Self {
+        self.prefs = prefs;
+        self.plots.prefs = prefs.plots;
+        self
+    }
+
+    fn load_demo(&mut self) {
+        self.cell = CellPanel::demo();
+        for f in crate::demo::FILES {
+            let id = self.add_run(format!("{} (demo)", f.name), Origin::Demo);
+            if let Some(run) = self.run_mut(id) {
+                run.selected = f.selected;
+            }
+            self.queue.push(Job::Import {
+                id,
+                name: f.name.to_owned(),
+                source: Source::Bytes(f.bytes),
+            });
+        }
+    }
+
+    fn add_run(&mut self, name: String, origin: Origin) -> RunId {
+        let id = RunId(self.next_id);
+        self.next_id += 1;
+        let used: Vec<_> = self.runs.iter().map(|r| r.colour).collect();
+        let colour = PALETTE
+            .iter()
+            .copied()
+            .find(|c| !used.contains(c))
+            .unwrap_or(PALETTE[(id.0 as usize) % PALETTE.len()]);
+        self.runs.push(Run {
+            id,
+            name,
+            origin,
+            colour,
+            selected: true,
+            import: Import::Loading,
+            lo: Default::default(),
+            hi: Default::default(),
+            fit: FitState::default(),
+            generations: 0,
+        });
+        if self.focus.is_none() {
+            self.focus = Some(id);
+        }
+        id
+    }
+
+    /// Opens a file by its path (read and fitted in the background).
+    pub fn open_path(&mut self, path: &Path) {
+        let name = file_name(path);
+        let id = self.add_run(name.clone(), Origin::File(path.to_path_buf()));
+        self.focus = Some(id);
+        self.queue.push(Job::Import {
+            id,
+            name,
+            source: Source::Path(path.to_path_buf()),
+        });
+    }
+
+    fn open_dropped(&mut self, file: egui::DroppedFileHandle) {
+        let path = file.path().to_path_buf();
+        let name = if path.as_os_str().is_empty() {
+            "dropped file".to_owned()
+        } else {
+            file_name(&path)
+        };
+        let id = self.add_run(name.clone(), Origin::Dropped(path));
+        self.focus = Some(id);
+        self.queue.push(Job::Import {
+            id,
+            name,
+            source: Source::Dropped(file),
+        });
+    }
+
+    /// Every run, in the order of the list.
+    pub fn runs(&self) -> &[Run] {
+        &self.runs
+    }
+
+    /// The run in focus.
+    pub fn focused(&self) -> Option<&Run> {
+        self.focus
+            .and_then(|id| self.runs.iter().find(|r| r.id == id))
+    }
+
+    /// The cell form (for tests and callers that preset it).
+    pub fn cell_form_mut(&mut self) -> &mut CellForm {
+        &mut self.cell.form
+    }
+
+    /// Whether an import or a fit is still running.
+    pub fn is_busy(&self) -> bool {
+        !self.queue.is_empty() || self.runs.iter().any(Run::busy)
+    }
+
+    /// The plots' view state.
+    pub fn plots(&self) -> &PlotsPanel {
+        &self.plots
+    }
+
+    /// The view shown in the central area.
+    pub fn view(&self) -> View {
+        self.view
+    }
+
+    fn run_mut(&mut self, id: RunId) -> Option<&mut Run> {
+        self.runs.iter_mut().find(|r| r.id == id)
+    }
+
+    /// Asks for a fit of run `id` with the current cell, choices and its window.
+    fn request_fit(&mut self, id: RunId) {
+        let Ok(cell) = self.cell.form.cell() else {
+            return;
+        };
+        let choices = self.cell.choices;
+        let Some(run) = self.runs.iter_mut().find(|r| r.id == id) else {
+            return;
+        };
+        let Some(data) = run.data().cloned() else {
+            return;
+        };
+        run.generations += 1;
+        run.fit.pending = Some(run.generations);
+        self.queue.push(Job::Fit {
+            id,
+            generation: run.generations,
+            data,
+            cell,
+            options: Box::new(choices.options(run.lo.choice, run.hi.choice)),
+        });
+    }
+
+    fn refit_all(&mut self) {
+        let ids: Vec<RunId> = self.runs.iter().map(|r| r.id).collect();
+        for id in ids {
+            self.request_fit(id);
+        }
+    }
+
+    fn automatic_window(&mut self, id: RunId) {
+        if let Some(run) = self.run_mut(id) {
+            run.lo = Default::default();
+            run.hi = Default::default();
+        }
+        self.request_fit(id);
+    }
+
+    fn receive(&mut self, outcome: Outcome) {
+        match outcome {
+            Outcome::Imported { id, result } => {
+                let Some(run) = self.run_mut(id) else { return };
+                match result {
+                    Ok(data) => {
+                        run.import = Import::Ready(data);
+                        self.request_fit(id);
+                    }
+                    Err(e) => run.import = Import::Failed(e),
+                }
+            }
+            Outcome::Fitted {
+                id,
+                generation,
+                result,
+            } => {
+                let Some(run) = self.run_mut(id) else { return };
+                if run.fit.pending == Some(generation) {
+                    run.fit.pending = None;
+                }
+                if generation < run.fit.latest_generation {
+                    return;
+                }
+                if let Ok(view) = &result {
+                    let w = &view.result.window;
+                    // The fields show the bounds used, unless the user is typing in them.
+                    for (field, t) in [(&mut run.lo, w.lo.time_s), (&mut run.hi, w.hi.time_s)] {
+                        if field.text.trim() == field.shown.trim() {
+                            field.show_time(t);
+                        }
+                    }
+                }
+                run.fit.latest = Some(result);
+                run.fit.latest_generation = generation;
+            }
+        }
+    }
+
+    fn start_dialog(&mut self) {
+        let (tx, rx) = channel();
+        let pick = move || {
+            let files = rfd::FileDialog::new()
+                .set_title("Open current–time files")
+                .add_filter("Text and CSV", &["csv", "txt", "dat", "tsv", "asc"])
+                .add_filter("All files", &["*"])
+                .pick_files();
+            // The window may be gone by the time the dialog closes; nothing then to tell.
+            let _ = tx.send(files);
+        };
+        // macOS wants dialogs on the main thread; elsewhere the dialog runs beside the window,
+        // which keeps drawing.
+        if cfg!(target_os = "macos") {
+            pick();
+            self.dialog = Some(rx);
+        } else {
+            match std::thread::Builder::new()
+                .name("diffusor-open-dialog".to_owned())
+                .spawn(pick)
+            {
+                Ok(_) => self.dialog = Some(rx),
+                Err(e) => self.status = Some(format!("cannot show the open dialog: {e}")),
+            }
+        }
+    }
+
+    fn poll_dialog(&mut self) {
+        let Some(rx) = &self.dialog else { return };
+        match rx.try_recv() {
+            Ok(Some(paths)) => {
+                self.dialog = None;
+                for p in paths {
+                    self.open_path(&p);
+                }
+            }
+            Ok(None) | Err(TryRecvError::Disconnected) => {
+                self.dialog = None;
+                self.status = Some("No file chosen. If no dialog appeared (no desktop portal), drop files onto the window, type a path in the Runs panel, or name them on the command line.".to_owned());
+            }
+            Err(TryRecvError::Empty) => {}
+        }
+    }
+
+    fn toggle_theme(&mut self, ctx: &egui::Context) {
+        let next = match ctx.theme() {
+            egui::Theme::Dark => ThemeChoice::Light,
+            egui::Theme::Light => ThemeChoice::Dark,
+        };
+        self.prefs.theme = next;
+        apply_theme(ctx, next);
+    }
+
+    fn shortcuts(&mut self, ctx: &egui::Context) {
+        let pressed = |s| ctx.input_mut(|i| i.consume_shortcut(&s));
+        // The most specific first: Ctrl+Shift+R before Ctrl+R.
+        if pressed(help::AUTO_WINDOW)
+            && let Some(id) = self.focus
+        {
+            self.automatic_window(id);
+        }
+        if pressed(help::REFIT) {
+            self.refit_all();
+        }
+        if pressed(help::OPEN) {
+            self.start_dialog();
+        }
+        if pressed(help::THEME) {
+            self.toggle_theme(ctx);
+        }
+        if pressed(help::FIT_VIEW) {
+            self.view = View::Fit;
+        }
+        if pressed(help::REPLICATE_VIEW) {
+            self.view = View::Replicates;
+        }
+        if pressed(help::HELP) {
+            self.help.open = !self.help.open;
+        }
+    }
+
+    /// Draws the whole window inside `ui` and does what the user asked.
+    pub fn ui(&mut self, ui: &mut egui::Ui) {
+        let ctx = ui.ctx().clone();
+        if !self.styled {
+            apply_style(&ctx);
+            apply_theme(&ctx, self.prefs.theme);
+            self.styled = true;
+        }
+        if self.worker.is_none() {
+            match Worker::spawn(ctx.clone()) {
+                Ok(w) => self.worker = Some(w),
+                Err(e) => self.status = Some(format!("cannot start the background worker: {e}")),
+            }
+        }
+        if let Some(w) = &self.worker {
+            for o in w.received() {
+                self.receive(o);
+            }
+        }
+        for f in ctx.input(|i| i.raw.dropped_files.clone()) {
+            self.open_dropped(f);
+        }
+        self.poll_dialog();
+        self.shortcuts(&ctx);
+
+        self.top_bar_ui(ui);
+        self.status_bar_ui(ui);
+        egui::Panel::left("runs-panel")
+            .default_size(350.0)
+            .size_range(280.0..=460.0)
+            .show(ui, |ui| self.left_ui(ui));
+        if self.view == View::Fit {
+            egui::Panel::right("result-panel")
+                .default_size(330.0)
+                .size_range(300.0..=520.0)
+                .show(ui, |ui| self.result_ui(ui));
+        }
+        egui::CentralPanel::default().show(ui, |ui| match self.view {
+            View::Fit => {
+                let input = PlotInput {
+                    runs: &self.runs,
+                    focus: self.focus,
+                };
+                if let Some(d) = self.plots.ui(ui, &input) {
+                    if let Some(run) = self.run_mut(d.id) {
+                        let field = match d.which {
+                            Which::Lo => &mut run.lo,
+                            Which::Hi => &mut run.hi,
+                        };
+                        field.choice = BoundChoice::At(d.time_s);
+                        field.show_time(d.time_s);
+                    }
+                    self.request_fit(d.id);
+                }
+                self.prefs.plots = self.plots.prefs;
+            }
+            View::Replicates => self.compare.ui(ui, &self.runs),
+        });
+        self.help.show(&ctx);
+        if ctx.input(|i| !i.raw.hovered_files.is_empty()) {
+            drop_hint(&ctx);
+        }
+
+        // An edit of the cell or the choices refits every run; an invalid entry keeps the last
+        // results, marked as such.
+        match self.cell.form.cell() {
+            Ok(cell) => {
+                self.stale = false;
+                let now = (cell, self.cell.choices);
+                if self.fitted_with.as_ref() != Some(&now) {
+                    self.fitted_with = Some(now);
+                    // Runs still being read are fitted when their data arrive.
+                    self.refit_all();
+                }
+            }
+            Err(_) => self.stale = self.fitted_with.is_some(),
+        }
+        if let Some(w) = &self.worker {
+            for job in self.queue.drain(..) {
+                if !w.send(job) {
+                    self.status =
+                        Some("the background worker stopped; restart Diffusor".to_owned());
+                    break;
+                }
+            }
+        }
+        if self.dialog.is_some() {
+            ctx.request_repaint_after(std::time::Duration::from_millis(100));
+        }
+    }
+
+    fn top_bar_ui(&mut self, ui: &mut egui::Ui) {
+        egui::Panel::top("top-bar").show(ui, |ui| {
+            ui.horizontal(|ui| {
+                ui.heading("Diffusor");
+                ui.weak("diffusion coefficients from potential-step transients");
+                ui.separator();
+                ui.selectable_value(&mut self.view, View::Fit, "Fit")
+                    .on_hover_text("One run's fit and plots (Ctrl+1)");
+                ui.selectable_value(&mut self.view, View::Replicates, "Replicates")
+                    .on_hover_text("The ticked runs compared (Ctrl+2)");
+                ui.separator();
+                if ui
+                    .button("Refit")
+                    .on_hover_text("Fit every run again (Ctrl+R)")
+                    .clicked()
+                {
+                    self.refit_all();
+                }
+                ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
+                    if ui
+                        .button("Help")
+                        .on_hover_text("Shortcuts and notes (F1)")
+                        .clicked()
+                    {
+                        self.help.open = !self.help.open;
+                    }
+                    ui.separator();
+                    // Right to left: Dark is drawn before Light so they read "Light Dark".
+                    let dark = ui.visuals().dark_mode;
+                    for (choice, name, on) in [
+                        (ThemeChoice::Dark, "Dark", dark),
+                        (ThemeChoice::Light, "Light", !dark),
+                    ] {
+                        if ui
+                            .selectable_label(on, name)
+                            .on_hover_text("Theme (Ctrl+T switches)")
+                            .clicked()
+                        {
+                            self.prefs.theme = choice;
+                            apply_theme(ui.ctx(), choice);
+                        }
+                    }
+                });
+            });
+        });
+    }
+
+    fn status_bar_ui(&mut self, ui: &mut egui::Ui) {
+        egui::Panel::bottom("status-bar").show(ui, |ui| {
+            ui.horizontal(|ui| {
+                let busy = self.runs.iter().filter(|r| r.busy()).count();
+                if busy > 0 {
+                    ui.spinner();
+                    ui.label(format!(
+                        "working on {busy} run{}…",
+                        if busy == 1 { "" } else { "s" }
+                    ));
+                    ui.separator();
+                }
+                if let Some(s) = &self.status {
+                    ui.colored_label(ui.visuals().warn_fg_color, s);
+                    if ui.small_button("dismiss").clicked() {
+                        self.status = None;
+                    }
+                } else {
+                    ui.add(egui::Label::new(RichText::new(CAUTION).small().weak()).truncate());
+                }
+            });
+        });
+    }
+
+    fn left_ui(&mut self, ui: &mut egui::Ui) {
+        egui::ScrollArea::vertical()
+            .id_salt("left-scroll")
+            .show(ui, |ui| {
+                ui.heading("Runs");
+                let actions = self.runs_panel.ui(ui, &mut self.runs, self.focus);
+                for a in actions {
+                    match a {
+                        RunsAction::OpenDialog => self.start_dialog(),
+                        RunsAction::OpenPath(p) => self.open_path(&p),
+                        RunsAction::Focus(id) => self.focus = Some(id),
+                        RunsAction::Remove(id) => {
+                            self.runs.retain(|r| r.id != id);
+                            if self.focus == Some(id) {
+                                self.focus = self.runs.first().map(|r| r.id);
+                            }
+                        }
+                    }
+                }
+                ui.separator();
+                ui.heading("Cell & electrode");
+                ui.weak("Applies to every run.");
+                self.cell.ui(ui);
+            });
+    }
+
+    fn result_ui(&mut self, ui: &mut egui::Ui) {
+        egui::ScrollArea::vertical()
+            .id_salt("result-scroll")
+            .show(ui, |ui| {
+                ui.heading("Result");
+                let focus = self.focus;
+                let stale = self.stale;
+                let run = focus.and_then(|id| self.runs.iter_mut().find(|r| r.id == id));
+                match self.results.ui(ui, run, stale) {
+                    Some(ResultAction::WindowEdited) => {
+                        if let Some(id) = focus {
+                            self.request_fit(id);
+                        }
+                    }
+                    Some(ResultAction::AutomaticWindow) => {
+                        if let Some(id) = focus {
+                            self.automatic_window(id);
+                        }
+                    }
+                    None => {}
+                }
+            });
+    }
+}
+
+fn file_name(path: &Path) -> String {
+    path.file_name().map_or_else(
+        || path.display().to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    )
+}
+
+/// A readable scale on a laptop screen: body text at 14 points, headings at 18.
+///
+/// Hack (the monospace font egui bundles) backs up the proportional font for the signs it
+/// lacks: the superscript minus of 10⁻⁶, arrows, ▲.
+fn apply_style(ctx: &egui::Context) {
+    use egui::{FontFamily, FontId, TextStyle};
+    let mut fonts = egui::FontDefinitions::default();
+    if let Some(family) = fonts.families.get_mut(&FontFamily::Proportional) {
+        family.push("Hack".to_owned());
+    }
+    ctx.set_fonts(fonts);
+    ctx.all_styles_mut(|style| {
+        style.text_styles = [
+            (
+                TextStyle::Heading,
+                FontId::new(18.0, FontFamily::Proportional),
+            ),
+            (TextStyle::Body, FontId::new(14.0, FontFamily::Proportional)),
+            (
+                TextStyle::Button,
+                FontId::new(14.0, FontFamily::Proportional),
+            ),
+            (
+                TextStyle::Small,
+                FontId::new(11.5, FontFamily::Proportional),
+            ),
+            (
+                TextStyle::Monospace,
+                FontId::new(13.0, FontFamily::Monospace),
+            ),
+        ]
+        .into();
+        style.spacing.item_spacing = egui::vec2(8.0, 5.0);
+    });
+}
+
+fn apply_theme(ctx: &egui::Context, theme: ThemeChoice) {
+    ctx.set_theme(match theme {
+        ThemeChoice::System => egui::ThemePreference::System,
+        ThemeChoice::Light => egui::ThemePreference::Light,
+        ThemeChoice::Dark => egui::ThemePreference::Dark,
+    });
+}
+
+fn drop_hint(ctx: &egui::Context) {
+    let screen = ctx.content_rect();
+    let painter = ctx.layer_painter(egui::LayerId::new(
+        egui::Order::Foreground,
+        egui::Id::unique("drop-hint"),
+    ));
+    painter.rect_filled(screen, 0.0, egui::Color32::from_black_alpha(150));
+    painter.text(
+        screen.center(),
+        egui::Align2::CENTER_CENTER,
+        "Drop current–time files to open them",
+        egui::FontId::proportional(22.0),
+        egui::Color32::WHITE,
+    );
+}
+
+impl eframe::App for DiffusorApp {
+    fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
+        DiffusorApp::ui(self, ui);
+    }
+
+    fn save(&mut self, storage: &mut dyn eframe::Storage) {
+        eframe::set_value(storage, PREFS_KEY, &self.prefs);
+    }
+}

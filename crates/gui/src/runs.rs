@@ -1,0 +1,313 @@
+//! A loaded run: where it came from, its trace, its window as typed, and its latest fit. The
+//! arrays to plot are prepared off the UI thread, once per import and once per fit.
+
+use std::path::PathBuf;
+use std::sync::Arc;
+
+use diffusor_fit::planar::PlanarResult;
+use diffusor_fit::window::BoundChoice;
+use diffusor_trace::{Segment, Trace};
+use eframe::egui::Color32;
+
+use crate::cell_form::parse_number;
+use crate::format;
+
+/// Identifies a run for as long as the window is open.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct RunId(pub u64);
+
+/// Where a run's bytes come from.
+#[derive(Debug, Clone)]
+pub enum Origin {
+    /// A bundled demo file (synthetic).
+    Demo,
+    /// A file on disk, opened by path.
+    File(PathBuf),
+    /// A file dropped onto the window.
+    Dropped(PathBuf),
+}
+
+/// The step of a trace as the plots and the fit see it: times after the step and the faradaic
+/// current with its sign made positive.
+#[derive(Debug)]
+pub struct RunData {
+    /// The imported trace.
+    pub trace: Trace,
+    /// The step analysed (the first one of the file).
+    pub step: Segment,
+    /// Times after the step, in s, positive and increasing.
+    pub time_s: Vec<f64>,
+    /// Current at those times, in A, multiplied by the step's polarity so the faradaic
+    /// current is positive.
+    pub current_a: Vec<f64>,
+    /// Whether the file's current was negated (a cathodic step).
+    pub sign_reversed: bool,
+    /// How many potential steps the file holds.
+    pub steps: usize,
+}
+
+impl RunData {
+    /// The first step of `trace`, or why there is none.
+    pub fn new(trace: Trace) -> Result<RunData, String> {
+        let step = trace
+            .steps()
+            .next()
+            .cloned()
+            .ok_or_else(|| "no potential step found in the file".to_owned())?;
+        let steps = trace.steps().count();
+        let all_t = trace.segment_time_s(&step);
+        let all_i = trace.faradaic_current_a(&step);
+        // The fit uses the samples after the step only; so do the plots.
+        let first = all_t.partition_point(|&t| t <= 0.0);
+        let sign_reversed = step
+            .polarity
+            .or(trace.polarity)
+            .is_some_and(|p| p.factor() < 0.0);
+        Ok(RunData {
+            time_s: all_t[first..].to_vec(),
+            current_a: all_i[first..].to_vec(),
+            trace,
+            step,
+            sign_reversed,
+            steps,
+        })
+    }
+}
+
+/// A fit and the arrays that depend on it, index for index with [`RunData::time_s`].
+#[derive(Debug)]
+pub struct FitView {
+    /// The engine's result.
+    pub result: PlanarResult,
+    /// I − I_fit, in A.
+    pub residual_a: Vec<f64>,
+    /// (t − t0)^-½, in s^-½: the Cottrell plot's abscissa.
+    pub inv_sqrt_s: Vec<f64>,
+    /// I·√(t − t0), in A·s^½.
+    pub i_sqrt_t: Vec<f64>,
+    /// (I − b)·√(t − t0)/S: 1 where the current follows the Cottrell law.
+    pub normalised: Vec<f64>,
+    /// The largest |I − I_fit| inside the window, in A: how far the residual plot must reach.
+    pub window_residual_max_a: f64,
+}
+
+impl FitView {
+    /// Prepares the plotted arrays of `result` fitted to `data`.
+    pub fn new(result: PlanarResult, data: &RunData) -> FitView {
+        let t0 = result.t0.value;
+        let slope = result.params.iter().find(|p| p.symbol == "S");
+        let s = slope.map_or(f64::NAN, |p| p.estimate.value);
+        let b = result
+            .params
+            .iter()
+            .find(|p| p.symbol == "b")
+            .map_or(0.0, |p| p.estimate.value);
+        let n = data.time_s.len();
+        let mut residual_a = Vec::with_capacity(n);
+        let mut inv_sqrt_s = Vec::with_capacity(n);
+        let mut i_sqrt_t = Vec::with_capacity(n);
+        let mut normalised = Vec::with_capacity(n);
+        for (&t, &i) in data.time_s.iter().zip(&data.current_a) {
+            let dt = t - t0;
+            let root = if dt > 0.0 { dt.sqrt() } else { f64::NAN };
+            residual_a.push(i - result.predict_a(t));
+            inv_sqrt_s.push(1.0 / root);
+            i_sqrt_t.push(i * root);
+            normalised.push((i - b) * root / s);
+        }
+        let w = &result.window;
+        let a = data.time_s.partition_point(|&t| t < w.lo.time_s);
+        let z = data.time_s.partition_point(|&t| t <= w.hi.time_s);
+        let window_residual_max_a = residual_a[a..z.max(a)]
+            .iter()
+            .filter(|r| r.is_finite())
+            .fold(0.0_f64, |m, r| m.max(r.abs()));
+        FitView {
+            window_residual_max_a,
+            result,
+            residual_a,
+            inv_sqrt_s,
+            i_sqrt_t,
+            normalised,
+        }
+    }
+}
+
+/// Where the import of a run stands.
+#[derive(Debug, Clone)]
+pub enum Import {
+    /// Being read.
+    Loading,
+    /// Read.
+    Ready(Arc<RunData>),
+    /// Could not be read; the message says why.
+    Failed(String),
+}
+
+/// One bound of the window as the user set it, with the text in its field.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BoundField {
+    /// What the fit is told.
+    pub choice: BoundChoice,
+    /// The field's text.
+    pub text: String,
+    /// The text the program last put there (typing something else is an edit).
+    pub shown: String,
+    /// Why the text cannot be used.
+    pub error: Option<String>,
+}
+
+impl Default for BoundField {
+    fn default() -> Self {
+        BoundField {
+            choice: BoundChoice::Auto,
+            text: String::new(),
+            shown: String::new(),
+            error: None,
+        }
+    }
+}
+
+impl BoundField {
+    /// Puts the bound the fit used into the field, unless the user is typing there.
+    pub fn show_time(&mut self, t_s: f64) {
+        let text = format::plain(t_s, 4);
+        self.text.clone_from(&text);
+        self.shown = text;
+        self.error = None;
+    }
+
+    /// Reads the field when the user has changed it: `Some` new choice, or `None` (unchanged or
+    /// unusable, with the error set).
+    pub fn take_edit(&mut self) -> Option<BoundChoice> {
+        if self.text.trim() == self.shown.trim() {
+            self.error = None;
+            return None;
+        }
+        if self.text.trim().eq_ignore_ascii_case("auto") || self.text.trim().is_empty() {
+            self.error = None;
+            return Some(BoundChoice::Auto);
+        }
+        match parse_number(&self.text) {
+            Ok(Some(v)) if v >= 0.0 => {
+                self.error = None;
+                Some(BoundChoice::At(v))
+            }
+            Ok(_) => {
+                self.error = Some("a time in seconds after the step, 0 or more".to_owned());
+                None
+            }
+            Err(e) => {
+                self.error = Some(e);
+                None
+            }
+        }
+    }
+}
+
+/// The latest fit of a run and whether a newer one is on its way.
+#[derive(Debug, Clone, Default)]
+pub struct FitState {
+    /// The newest result received: the fit, or why it failed.
+    pub latest: Option<Result<Arc<FitView>, String>>,
+    /// The generation of `latest`.
+    pub latest_generation: u64,
+    /// The generation of the fit being computed, if any.
+    pub pending: Option<u64>,
+}
+
+/// A loaded run.
+#[derive(Debug, Clone)]
+pub struct Run {
+    /// Its identifier.
+    pub id: RunId,
+    /// Its name (the file name).
+    pub name: String,
+    /// Where it came from.
+    pub origin: Origin,
+    /// Its colour in every plot.
+    pub colour: Color32,
+    /// Shown in the overlays and counted in the replicate comparison.
+    pub selected: bool,
+    /// The import.
+    pub import: Import,
+    /// Lower bound of the window.
+    pub lo: BoundField,
+    /// Upper bound of the window.
+    pub hi: BoundField,
+    /// The fit.
+    pub fit: FitState,
+    /// Generation counter for fits, so a late result of an older request is not shown.
+    pub generations: u64,
+}
+
+impl Run {
+    /// The run's data once imported.
+    pub fn data(&self) -> Option<&Arc<RunData>> {
+        match &self.import {
+            Import::Ready(d) => Some(d),
+            _ => None,
+        }
+    }
+
+    /// The latest successful fit.
+    pub fn fit_view(&self) -> Option<&Arc<FitView>> {
+        match &self.fit.latest {
+            Some(Ok(v)) => Some(v),
+            _ => None,
+        }
+    }
+
+    /// The error to show beside the run: the import's, else the latest fit's.
+    pub fn error(&self) -> Option<&str> {
+        match (&self.import, &self.fit.latest) {
+            (Import::Failed(e), _) | (_, Some(Err(e))) => Some(e),
+            _ => None,
+        }
+    }
+
+    /// Whether something is being computed for this run.
+    pub fn busy(&self) -> bool {
+        matches!(self.import, Import::Loading) || self.fit.pending.is_some()
+    }
+
+    /// Whether this is a bundled demo file.
+    pub fn is_demo(&self) -> bool {
+        matches!(self.origin, Origin::Demo)
+    }
+}
+
+/// Colours for runs, in order: the Okabe–Ito palette for colour-blind readers (M. Okabe and
+/// K. Ito, "Color Universal Design", 2008), without its yellow, which is unreadable on white.
+pub const PALETTE: [Color32; 7] = [
+    Color32::from_rgb(0x00, 0x72, 0xB2),
+    Color32::from_rgb(0xD5, 0x5E, 0x00),
+    Color32::from_rgb(0x00, 0x9E, 0x73),
+    Color32::from_rgb(0xCC, 0x79, 0xA7),
+    Color32::from_rgb(0x56, 0xB4, 0xE9),
+    Color32::from_rgb(0xE6, 0x9F, 0x00),
+    Color32::from_rgb(0x80, 0x80, 0x80),
+];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_bound_field_tells_edits_from_what_the_program_wrote() {
+        let mut f = BoundField::default();
+        f.show_time(0.002_499_999_9);
+        assert_eq!(f.text, "0.0025");
+        assert_eq!(f.take_edit(), None);
+        f.text = "0.5".to_owned();
+        assert_eq!(f.take_edit(), Some(BoundChoice::At(0.5)));
+        f.text = "auto".to_owned();
+        assert_eq!(f.take_edit(), Some(BoundChoice::Auto));
+        f.text = "-1".to_owned();
+        assert_eq!(f.take_edit(), None);
+        assert_eq!(
+            f.error.as_deref(),
+            Some("a time in seconds after the step, 0 or more")
+        );
+    }
+}

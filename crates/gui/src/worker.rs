@@ -1,0 +1,208 @@
+//! Imports and fits run on a named background thread, so the window never freezes on a big
+//! file. Requests go in over one channel, results come back over another, and each result
+//! asks egui to repaint.
+
+use std::path::PathBuf;
+use std::sync::Arc;
+use std::sync::mpsc::{Receiver, Sender, TryRecvError, channel};
+
+use diffusor_fit::cell::Cell;
+use diffusor_fit::planar::{PlanarOptions, analyze};
+use diffusor_trace::{ImportOptions, import_bytes, import_path};
+use eframe::egui;
+
+use crate::runs::{FitView, RunData, RunId};
+
+/// Where the bytes of an import are.
+pub enum Source {
+    /// In memory (a bundled file), labelled with its name.
+    Bytes(&'static [u8]),
+    /// On disk.
+    Path(PathBuf),
+    /// Dropped onto the window: read from its path when there is one on disk, else through the
+    /// handle the windowing layer gave.
+    Dropped(egui::DroppedFileHandle),
+}
+
+impl std::fmt::Debug for Source {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Source::Bytes(b) => write!(f, "Bytes({} bytes)", b.len()),
+            Source::Path(p) => write!(f, "Path({})", p.display()),
+            Source::Dropped(d) => write!(f, "Dropped({})", d.path().display()),
+        }
+    }
+}
+
+/// Work for the background thread.
+#[derive(Debug)]
+pub enum Job {
+    /// Read a file.
+    Import {
+        /// The run it is for.
+        id: RunId,
+        /// Its name in messages.
+        name: String,
+        /// Its bytes.
+        source: Source,
+    },
+    /// Fit a run.
+    Fit {
+        /// The run.
+        id: RunId,
+        /// Which request this is; only the newest per run is worked on.
+        generation: u64,
+        /// The run's data.
+        data: Arc<RunData>,
+        /// The cell.
+        cell: Cell,
+        /// The options, window included (boxed: they are most of the job's size).
+        options: Box<PlanarOptions>,
+    },
+}
+
+/// What the background thread sends back.
+#[derive(Debug)]
+pub enum Outcome {
+    /// A file was read (or not).
+    Imported {
+        /// The run.
+        id: RunId,
+        /// Its data, or the message to show beside it.
+        result: Result<Arc<RunData>, String>,
+    },
+    /// A fit finished (or failed).
+    Fitted {
+        /// The run.
+        id: RunId,
+        /// The request it answers.
+        generation: u64,
+        /// The fit with its plotted arrays, or the message to show beside the run.
+        result: Result<Arc<FitView>, String>,
+    },
+}
+
+/// The handle to the background thread.
+#[derive(Debug)]
+pub struct Worker {
+    jobs: Sender<Job>,
+    outcomes: Receiver<Outcome>,
+}
+
+impl Worker {
+    /// Starts the thread; each outcome calls `ctx.request_repaint()`.
+    pub fn spawn(ctx: egui::Context) -> std::io::Result<Worker> {
+        let (jobs, job_rx) = channel::<Job>();
+        let (out_tx, outcomes) = channel::<Outcome>();
+        std::thread::Builder::new()
+            .name("diffusor-worker".to_owned())
+            .spawn(move || work(&job_rx, &out_tx, &ctx))?;
+        Ok(Worker { jobs, outcomes })
+    }
+
+    /// Hands a job to the thread. `false` when the thread has gone.
+    pub fn send(&self, job: Job) -> bool {
+        self.jobs.send(job).is_ok()
+    }
+
+    /// The outcomes that have arrived.
+    pub fn received(&self) -> Vec<Outcome> {
+        let mut out = Vec::new();
+        loop {
+            match self.outcomes.try_recv() {
+                Ok(o) => out.push(o),
+                Err(TryRecvError::Empty | TryRecvError::Disconnected) => return out,
+            }
+        }
+    }
+}
+
+fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
+    while let Ok(first) = jobs.recv() {
+        // Everything queued meanwhile is looked at together, so that a fit already superseded
+        // by a newer request for the same run (typing in a field sends one per key) is skipped.
+        let mut batch = vec![first];
+        while let Ok(j) = jobs.try_recv() {
+            batch.push(j);
+        }
+        let newest = |id: RunId| {
+            batch
+                .iter()
+                .filter_map(|j| match j {
+                    Job::Fit {
+                        id: i, generation, ..
+                    } if *i == id => Some(*generation),
+                    _ => None,
+                })
+                .max()
+        };
+        let keep: Vec<bool> = batch
+            .iter()
+            .map(|j| match j {
+                Job::Fit { id, generation, .. } => newest(*id) == Some(*generation),
+                Job::Import { .. } => true,
+            })
+            .collect();
+        for (job, keep) in batch.into_iter().zip(keep) {
+            if !keep {
+                continue;
+            }
+            let outcome = run_job(job);
+            if outcomes.send(outcome).is_err() {
+                return;
+            }
+            ctx.request_repaint();
+        }
+    }
+}
+
+fn run_job(job: Job) -> Outcome {
+    match job {
+        Job::Import { id, name, source } => {
+            let options = ImportOptions::default();
+            let trace = match source {
+                Source::Bytes(bytes) => import_bytes(&name, bytes, &options),
+                Source::Path(path) => import_path(&path, &options),
+                Source::Dropped(handle) => {
+                    let path = handle.path();
+                    if path.is_file() {
+                        import_path(path, &options)
+                    } else {
+                        match handle.bytes() {
+                            Ok(bytes) => import_bytes(&name, &bytes, &options),
+                            Err(e) => {
+                                return Outcome::Imported {
+                                    id,
+                                    result: Err(format!(
+                                        "cannot read the dropped file ({e}): {name}"
+                                    )),
+                                };
+                            }
+                        }
+                    }
+                }
+            };
+            let result = trace
+                .map_err(|e| e.to_string())
+                .and_then(RunData::new)
+                .map(Arc::new);
+            Outcome::Imported { id, result }
+        }
+        Job::Fit {
+            id,
+            generation,
+            data,
+            cell,
+            options,
+        } => {
+            let result = analyze(&data.trace, &data.step, &cell, &options)
+                .map(|r| Arc::new(FitView::new(r, &data)))
+                .map_err(|e| e.to_string());
+            Outcome::Fitted {
+                id,
+                generation,
+                result,
+            }
+        }
+    }
+}

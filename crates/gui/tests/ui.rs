@@ -1,0 +1,447 @@
+//! The window driven headless through egui_kittest: what a user sees and does, queried by the
+//! accessibility tree, with the fits done by the real engine on the real background thread.
+
+use std::path::PathBuf;
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+
+use diffusor_fit::planar::{PlanarOptions, analyze};
+use diffusor_fit::replicates::{GrubbsOutcome, RunEstimate, summarize};
+use diffusor_gui::format::{sci, sci_interval};
+use diffusor_gui::runs::Run;
+use diffusor_gui::{DiffusorApp, Prefs, ThemeChoice, View};
+use eframe::egui::accesskit::Role;
+use eframe::egui::{self, Key, Modifiers};
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+
+/// A file dropped onto the window: a path that does not exist on disk, so the bytes are read
+/// through the handle, as for a file dropped from a browser or an archive.
+#[derive(Debug)]
+struct FakeFile {
+    path: PathBuf,
+    bytes: Vec<u8>,
+}
+
+impl egui::DroppedFile for FakeFile {
+    fn path(&self) -> &std::path::Path {
+        &self.path
+    }
+    fn bytes(&self) -> Result<Vec<u8>, String> {
+        Ok(self.bytes.clone())
+    }
+}
+
+fn harness(app: DiffusorApp) -> Harness<'static, DiffusorApp> {
+    Harness::builder()
+        .with_size(egui::vec2(1280.0, 800.0))
+        .with_theme(egui::Theme::Light)
+        .build_ui_state(|ui, app: &mut DiffusorApp| app.ui(ui), app)
+}
+
+/// Steps frames until the background worker has answered everything, then lets the layout
+/// settle (which also runs kittest's check that every input has an accessible name).
+fn settle(h: &mut Harness<'_, DiffusorApp>) {
+    let start = Instant::now();
+    loop {
+        h.step();
+        if !h.state().is_busy() {
+            break;
+        }
+        assert!(
+            start.elapsed() < Duration::from_secs(180),
+            "the worker did not finish"
+        );
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    h.run();
+}
+
+fn run_named<'a>(h: &'a Harness<'_, DiffusorApp>, name: &str) -> &'a Run {
+    h.state()
+        .runs()
+        .iter()
+        .find(|r| r.name == name)
+        .unwrap_or_else(|| panic!("no run {name}"))
+}
+
+fn d_cm2_s(run: &Run) -> f64 {
+    run.fit_view()
+        .and_then(|f| f.result.diffusion_m2_s)
+        .expect("a fitted D")
+        .value
+        * 1e4
+}
+
+/// Replaces the text of the field labelled `label` and presses Enter, as a user would.
+fn retype(h: &mut Harness<'_, DiffusorApp>, label: &str, text: &str) {
+    h.get_by_label(label).focus();
+    h.step();
+    h.key_press_modifiers(Modifiers::COMMAND, Key::A);
+    h.step();
+    h.get_by_label(label).type_text(text);
+    h.step();
+    h.key_press(Key::Enter);
+    h.step();
+}
+
+const REP1: &[u8] = include_bytes!("../../../sample-data/planar-rep1.csv");
+const REP3: &[u8] = include_bytes!("../../../sample-data/planar-rep3.csv");
+
+#[test]
+fn the_demo_is_fitted_on_first_start_and_shows_d() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let runs = h.state().runs();
+    assert_eq!(runs.len(), diffusor_gui::demo::FILES.len());
+    assert!(
+        runs.iter().all(|r| r.fit_view().is_some()),
+        "every demo run is fitted"
+    );
+
+    // The engine, called directly on the same bytes with the demo's cell and default options,
+    // gives the number the window shows.
+    let trace =
+        diffusor_trace::import_bytes("planar-rep1.csv", REP1, &Default::default()).expect("import");
+    let step = trace.steps().next().expect("a step").clone();
+    let cell = diffusor_gui::cell_form::CellForm::demo()
+        .cell()
+        .expect("demo cell");
+    let direct = analyze(&trace, &step, &cell, &PlanarOptions::default()).expect("fit");
+    let direct_d = direct.diffusion_m2_s.expect("D").value * 1e4;
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    assert_eq!(d_cm2_s(rep1), direct_d);
+    // sample-data/README.md, "True values": D_app = 7.0105 × 10⁻⁶ cm²/s for planar-rep1 with
+    // the nominal A and C; the fit's own uncertainty is far below 0.1 %.
+    assert!((direct_d / 7.0105e-6 - 1.0).abs() < 1e-3, "D = {direct_d}");
+
+    // The Result panel shows it, with its interval, and the demo is said to be synthetic.
+    let ci = direct.diffusion_m2_s.expect("D").ci95;
+    h.get_by_label(&format!("D = {} cm²/s", sci(direct_d, 4)));
+    h.get_by_label(&format!(
+        "95 % interval {} cm²/s",
+        sci_interval(ci[0] * 1e4, ci[1] * 1e4, 4)
+    ));
+    assert!(
+        h.query_all_by_label_contains("synthetic").count() >= 1,
+        "the demo says it is synthetic"
+    );
+}
+
+#[test]
+fn a_dropped_file_is_imported_and_fitted() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.input_mut().dropped_files.push(Arc::new(FakeFile {
+        path: PathBuf::from("/no/such/dir/dropped-rep3.csv"),
+        bytes: REP3.to_vec(),
+    }));
+    settle(&mut h);
+    let run = run_named(&h, "dropped-rep3.csv");
+    assert_eq!(
+        h.state().focused().map(|r| r.id),
+        Some(run.id),
+        "the new run is in focus"
+    );
+    // sample-data/README.md: D_app = 6.8636 × 10⁻⁶ cm²/s for planar-rep3 (nominal A and C).
+    let d = d_cm2_s(run);
+    assert!((d / 6.8636e-6 - 1.0).abs() < 1e-3, "D = {d}");
+    h.get_by_role_and_label(Role::Button, "dropped-rep3.csv");
+    h.get_by_label(&format!("D = {} cm²/s", sci(d, 4)));
+}
+
+#[test]
+fn changing_n_changes_d_by_one_over_n_squared() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    // Fix the window first: the automatic end depends on D through the edge-diffusion rule,
+    // and the ratio below holds for the same slope.
+    retype(&mut h, "Start (s)", "0.01");
+    settle(&mut h);
+    retype(&mut h, "End (s)", "5");
+    settle(&mut h);
+    let before = d_cm2_s(run_named(&h, "planar-rep1.csv (demo)"));
+    let s_before = slope(run_named(&h, "planar-rep1.csv (demo)"));
+
+    retype(&mut h, "n (electrons)", "2");
+    settle(&mut h);
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    let after = d_cm2_s(rep1);
+    assert_eq!(
+        slope(rep1),
+        s_before,
+        "the same window gives the same slope"
+    );
+    // D = π·(S/(n·F·A·C))² (Cottrell, Z. Phys. Chem. 42 (1903) 385): n = 2 divides D by 4.
+    assert!((after / before - 0.25).abs() < 1e-12, "{after} / {before}");
+    h.get_by_label(&format!("D = {} cm²/s", sci(after, 4)));
+    // Every run was refitted, not only the one in focus.
+    for r in h.state().runs() {
+        assert!(r.fit.latest_generation >= 2, "{} refitted", r.name);
+    }
+}
+
+fn slope(run: &Run) -> f64 {
+    run.fit_view()
+        .and_then(|f| f.result.params.iter().find(|p| p.symbol == "S"))
+        .expect("slope")
+        .estimate
+        .value
+}
+
+#[test]
+fn typing_a_window_bound_refits_and_the_automatic_window_comes_back() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let name = "planar-rep1.csv (demo)";
+    let auto = run_named(&h, name).fit_view().expect("fit").clone();
+    assert!(auto.result.window.lo.automatic);
+
+    retype(&mut h, "Start (s)", "0.5");
+    settle(&mut h);
+    let typed = run_named(&h, name).fit_view().expect("fit").clone();
+    let w = &typed.result.window;
+    assert_eq!(w.lo.time_s, 0.5);
+    assert!(!w.lo.automatic && w.hi.automatic);
+    assert!(w.points < auto.result.window.points, "fewer points");
+    assert_ne!(
+        typed.result.diffusion_m2_s.map(|d| d.value),
+        auto.result.diffusion_m2_s.map(|d| d.value),
+        "a new D"
+    );
+    h.get_by_label_contains("(set by you)");
+
+    h.get_by_label("Automatic window").click();
+    settle(&mut h);
+    let back = run_named(&h, name).fit_view().expect("fit").clone();
+    // The engine is deterministic: the same inputs give the same numbers.
+    assert_eq!(back.result.window, auto.result.window);
+    assert_eq!(back.result.diffusion_m2_s, auto.result.diffusion_m2_s);
+}
+
+#[test]
+fn dragging_the_window_start_on_the_transient_refits() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let name = "planar-rep1.csv (demo)";
+    let before = run_named(&h, name).fit_view().expect("fit").clone();
+    let lo = before.result.window.lo.time_s;
+    let grab = h
+        .state()
+        .plots()
+        .transient_point(lo)
+        .expect("transient drawn");
+    let to = grab + egui::vec2(40.0, 0.0);
+    let target = h
+        .state()
+        .plots()
+        .transient_time_at(to.x)
+        .expect("transient drawn");
+    // Press on the line, move right in steps, let go: the plot must not pan meanwhile.
+    h.hover_at(grab);
+    h.step();
+    h.drag_at(grab);
+    h.step();
+    for dx in [10.0, 20.0, 30.0, 40.0] {
+        h.hover_at(grab + egui::vec2(dx, 0.0));
+        h.step();
+    }
+    h.drop_at(to);
+    h.step();
+    settle(&mut h);
+    let after = run_named(&h, name).fit_view().expect("fit").clone();
+    let w = &after.result.window;
+    assert!(!w.lo.automatic, "the start is now the user's");
+    assert!(w.hi.automatic, "the end stays automatic");
+    // The bound lands where the pointer was let go (the view did not move under it).
+    assert!(
+        (w.lo.time_s / target - 1.0).abs() < 1e-9,
+        "{} vs {target}",
+        w.lo.time_s
+    );
+    assert!(w.lo.time_s > lo && w.points < before.result.window.points);
+    h.get_by_label(&format!(
+        "Window starts at {} (set by you)",
+        diffusor_gui::format::time(w.lo.time_s)
+    ));
+}
+
+#[test]
+fn an_impossible_entry_is_flagged_where_it_is_typed_and_the_results_are_marked() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let before = d_cm2_s(run_named(&h, "planar-rep1.csv (demo)"));
+    retype(&mut h, "Area A", "-1");
+    settle(&mut h);
+    // Cell::validate's message, quoting the number as typed, under the field.
+    h.get_by_label("the area must be positive, not -1");
+    h.get_by_label_contains("The cell entries have a problem");
+    // Nothing was refitted with the impossible cell; the last good result stays.
+    assert_eq!(d_cm2_s(run_named(&h, "planar-rep1.csv (demo)")), before);
+}
+
+#[test]
+fn a_known_d_gives_the_electroactive_area() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.get_by_label("use it (inverse mode: find n·A·C)").click();
+    h.run();
+    // sample-data/README.md: with the nominal A and C the fit returns D_app = 7.0105 × 10⁻⁶
+    // cm²/s for planar-rep1; taking that D as known must give back the nominal 0.0707 cm².
+    retype(&mut h, "D", "7.0105e-6");
+    settle(&mut h);
+    let r = &run_named(&h, "planar-rep1.csv (demo)")
+        .fit_view()
+        .expect("fit")
+        .result;
+    assert_eq!(r.mode, "inverse");
+    let area_cm2 = r.area_m2.expect("area").value * 1e4;
+    assert!((area_cm2 / 0.0707 - 1.0).abs() < 1e-3, "A = {area_cm2}");
+    h.get_by_label(&format!("A (electroactive) = {} cm²", sci(area_cm2, 4)));
+}
+
+#[test]
+fn shortcuts_switch_views_and_restore_the_automatic_window() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num2);
+    h.run();
+    assert_eq!(h.state().view(), View::Replicates);
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num1);
+    h.run();
+    assert_eq!(h.state().view(), View::Fit);
+
+    let name = "planar-rep1.csv (demo)";
+    retype(&mut h, "Start (s)", "0.5");
+    settle(&mut h);
+    assert!(
+        !run_named(&h, name)
+            .fit_view()
+            .expect("fit")
+            .result
+            .window
+            .lo
+            .automatic
+    );
+    h.key_press_modifiers(Modifiers::COMMAND | Modifiers::SHIFT, Key::R);
+    settle(&mut h);
+    assert!(
+        run_named(&h, name)
+            .fit_view()
+            .expect("fit")
+            .result
+            .window
+            .lo
+            .automatic
+    );
+
+    let theme = h.ctx.theme();
+    h.key_press_modifiers(Modifiers::COMMAND, Key::T);
+    h.run();
+    assert_ne!(h.ctx.theme(), theme, "Ctrl+T switches the theme");
+
+    h.key_press(Key::F1);
+    h.run();
+    h.get_by_label("Help & notes");
+}
+
+#[test]
+fn a_broken_file_shows_its_error_beside_the_run() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let mut text = String::from("time (s),current (uA)\n");
+    for t in [
+        0.0, 0.001, 0.002, 0.0015, 0.003, 0.004, 0.005, 0.006, 0.007, 0.008, 0.009,
+    ] {
+        text.push_str(&format!("{t},{}\n", 10.0 + t));
+    }
+    h.input_mut().dropped_files.push(Arc::new(FakeFile {
+        path: PathBuf::from("broken.csv"),
+        bytes: text.into_bytes(),
+    }));
+    settle(&mut h);
+    // The importer's message (crates/trace, TimeNotIncreasing), shown in the list beside the
+    // run and in the Result panel.
+    let message = "line 5: time goes backwards (0.0015 s after 0.002 s); a trace must be in time order: broken.csv";
+    assert_eq!(run_named(&h, "broken.csv").error(), Some(message));
+    h.get_by_label(&format!("cannot read: {message}"));
+    h.get_by_label(&format!("The file could not be read: {message}"));
+    // The other runs are untouched.
+    assert!(d_cm2_s(run_named(&h, "planar-rep1.csv (demo)")) > 0.0);
+}
+
+#[test]
+fn the_replicate_view_summarises_the_ticked_runs() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.get_by_label("Replicates").click();
+    h.run();
+    assert_eq!(h.state().view(), View::Replicates);
+    h.get_by_label("Replicate comparison");
+    // The demo ticks the three replicates, not the convection run: the summary is theirs, as
+    // replicates::summarize gives it for their D values and standard errors.
+    let ticked: Vec<&Run> = h.state().runs().iter().filter(|r| r.selected).collect();
+    let names: Vec<&str> = ticked.iter().map(|r| r.name.as_str()).collect();
+    assert_eq!(
+        names,
+        [
+            "planar-rep1.csv (demo)",
+            "planar-rep2.csv (demo)",
+            "planar-rep3.csv (demo)"
+        ]
+    );
+    let estimates: Vec<RunEstimate> = ticked
+        .iter()
+        .map(|r| {
+            let d = r
+                .fit_view()
+                .and_then(|f| f.result.diffusion_m2_s)
+                .expect("D");
+            // In cm²/s, the unit the view passes on (so its sentences quote the table's numbers).
+            RunEstimate {
+                label: r.name.clone(),
+                value: d.value * 1e4,
+                std_error: d.std_error * 1e4,
+            }
+        })
+        .collect();
+    let summary = summarize(&estimates).expect("three runs");
+    // sample-data/README.md: across the three replicates D_app has a mean of 6.998 × 10⁻⁶
+    // cm²/s and a spread of about ±1.8 %.
+    assert!((summary.mean / 6.998e-6 - 1.0).abs() < 1e-3);
+    h.get_by_label(&format!("{} cm²/s", sci(summary.mean, 4)));
+    let birge = summary.weighted.as_ref().expect("weighted").birge_ratio;
+    h.get_by_label("Birge ratio");
+    h.get_by_label(&format!("{birge:.2}"));
+    match &summary.grubbs {
+        GrubbsOutcome::Tested(g) => {
+            h.get_by_label(&g.statement);
+        }
+        GrubbsOutcome::NotApplicable { reason } => {
+            h.get_by_label(reason);
+        }
+    }
+}
+
+fn themed(theme: ThemeChoice) -> DiffusorApp {
+    DiffusorApp::demo().with_prefs(Prefs {
+        theme,
+        ..Prefs::default()
+    })
+}
+
+#[test]
+fn snapshot_of_the_demo_fit_view() {
+    let mut h = harness(themed(ThemeChoice::Light));
+    settle(&mut h);
+    h.snapshot("demo_fit_view");
+}
+
+#[test]
+fn snapshot_of_the_replicate_view() {
+    let mut h = harness(themed(ThemeChoice::Dark));
+    settle(&mut h);
+    h.get_by_label("Replicates").click();
+    h.run();
+    h.snapshot("demo_replicates");
+}
