@@ -12,8 +12,8 @@ use diffusor_gui::runs::Run;
 use diffusor_gui::{DiffusorApp, Prefs, ThemeChoice, View};
 use eframe::egui::accesskit::Role;
 use eframe::egui::{self, Key, Modifiers};
-use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
+use egui_kittest::{Harness, SnapshotOptions};
 
 /// A file dropped onto the window: a path that does not exist on disk, so the bytes are read
 /// through the handle, as for a file dropped from a browser or an archive.
@@ -434,11 +434,19 @@ fn themed(theme: ThemeChoice) -> DiffusorApp {
     })
 }
 
+/// Two runs of the same snapshot once differed in 6 anti-aliased pixels along the dashed fit
+/// line (the fitted numbers were bit-identical; how many frames pass before the worker answers
+/// varies with the machine's load, the likely cause). A change of layout or content moves
+/// thousands, so a hundred are let through.
+fn snapshot_options() -> SnapshotOptions {
+    SnapshotOptions::new().max_failed_pixels(100)
+}
+
 #[test]
 fn snapshot_of_the_demo_fit_view() {
     let mut h = harness(themed(ThemeChoice::Light));
     settle(&mut h);
-    h.snapshot("demo_fit_view");
+    h.snapshot_options("demo_fit_view", &snapshot_options());
 }
 
 #[test]
@@ -447,5 +455,5 @@ fn snapshot_of_the_replicate_view() {
     settle(&mut h);
     h.get_by_label("Replicates").click();
     h.run();
-    h.snapshot("demo_replicates");
+    h.snapshot_options("demo_replicates", &snapshot_options());
 }
