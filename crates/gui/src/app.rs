@@ -9,7 +9,7 @@ use diffusor_fit::window::BoundChoice;
 use eframe::egui::{self, RichText};
 use serde::{Deserialize, Serialize};
 
-use crate::cell_form::{CellForm, CellPanel, FitChoices};
+use crate::cell_form::{CellPanel, FitChoices};
 use crate::compare::ComparePanel;
 use crate::help::{self, HelpWindow};
 use crate::plots::{PlotInput, PlotPrefs, PlotsPanel, Which};
@@ -208,11 +208,6 @@ impl DiffusorApp {
             .and_then(|id| self.runs.iter().find(|r| r.id == id))
     }
 
-    /// The cell form (for tests and callers that preset it).
-    pub fn cell_form_mut(&mut self) -> &mut CellForm {
-        &mut self.cell.form
-    }
-
     /// Whether an import or a fit is still running.
     pub fn is_busy(&self) -> bool {
         !self.queue.is_empty() || self.runs.iter().any(Run::busy)
@@ -279,7 +274,11 @@ impl DiffusorApp {
                         run.import = Import::Ready(data);
                         self.request_fit(id);
                     }
-                    Err(e) => run.import = Import::Failed(e),
+                    Err(e) => {
+                        run.import = Import::Failed(e);
+                        // A file that cannot be read takes no part in overlays or comparisons.
+                        run.selected = false;
+                    }
                 }
             }
             Outcome::Fitted {

@@ -183,7 +183,7 @@ fn summary_ui(ui: &mut egui::Ui, s: &ReplicateSummary, unit: &str) {
         ));
         cells.push(("Birge ratio", format!("{:.2}", w.birge_ratio)));
         cells.push((
-            "χ² / degrees of freedom",
+            "chi-squared / degrees of freedom",
             format!("{:.1} / {} ({})", w.chi_squared, w.dof, p_value(w.p_value)),
         ));
         if let Some(ext) = w.external_std_error {

@@ -552,7 +552,12 @@ impl PlotsPanel {
     }
 
     fn residuals_ui(&mut self, ui: &mut egui::Ui, focused: Option<&Run>, reframe: bool) {
-        ui.strong("Residuals I − I_fit");
+        ui.horizontal(|ui| {
+            ui.strong("Residuals I − I_fit");
+            if focused.is_some_and(|r| r.fit_view().is_none()) {
+                ui.weak("(the run in focus has no fit)");
+            }
+        });
         let fit = focused.and_then(|r| r.fit_view().map(|f| (r, f)));
         let sd = fit.map_or(1e-9, |(_, f)| f.result.diagnostics.residual_sd_a);
         let (scale, unit) = prefixed(sd, "A");

@@ -364,6 +364,10 @@ fn a_broken_file_shows_its_error_beside_the_run() {
     // run and in the Result panel.
     let message = "line 5: time goes backwards (0.0015 s after 0.002 s); a trace must be in time order: broken.csv";
     assert_eq!(run_named(&h, "broken.csv").error(), Some(message));
+    assert!(
+        !run_named(&h, "broken.csv").selected,
+        "an unreadable file is left out of the overlays and the comparison"
+    );
     h.get_by_label(&format!("cannot read: {message}"));
     h.get_by_label(&format!("The file could not be read: {message}"));
     // The other runs are untouched.
