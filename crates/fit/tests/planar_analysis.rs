@@ -701,3 +701,38 @@ fn intervals_cover_at_fast_sampling_with_the_onset_refined() {
         .count();
     assert!(covered >= 17, "{covered}/20 covered");
 }
+
+#[test]
+fn pure_cottrell_reports_no_charging_at_any_sampling_rate() {
+    // 10 seeds at each of 10 µs, 100 µs and 1 ms sampling (5 nA noise): an exponential fitted
+    // alone once took the bend of a slightly misplaced onset for charging; fitted with t0 free,
+    // no τ may appear.
+    for (dt, n) in [(1e-5, 200_000), (1e-4, 100_000), (1e-3, 10_000)] {
+        for seed in 0..10 {
+            let time = grid(dt, n);
+            let current = noisy(&time, 5e-9, 200 + seed, cottrell);
+            let r = analyze_data(
+                &time,
+                &current,
+                &cell(),
+                &options(),
+                "none".into(),
+                Vec::new(),
+            )
+            .expect("analysis");
+            assert!(
+                r.charging.is_none(),
+                "dt {dt} seed {seed}: {:?}",
+                r.charging
+            );
+            assert!(
+                matches!(
+                    r.window.lo.reason,
+                    BoundReason::FirstSample | BoundReason::ChargingExcess { .. }
+                ),
+                "dt {dt} seed {seed}: {:?}",
+                r.window.lo
+            );
+        }
+    }
+}
