@@ -1152,7 +1152,12 @@ pub fn analyze_data(
     let (w_time, w_current) = (&time[a..b], &current[a..b]);
     let (s_fit, b_fit, t0_fit) = (line.slope, line.intercept.unwrap_or(0.0), t0.value);
     let resid = move |i: usize| w_current[i] - s_fit / (w_time[i] - t0_fit).sqrt() - b_fit;
-    let switches = range_switches(w_time, &resid);
+    // The model S·(t − t0)^-½ is monotone in t, so its change over [i, j] bounds every
+    // neighbour difference inside.
+    let variation = move |i: usize, j: usize| {
+        (s_fit * (1.0 / (w_time[i] - t0_fit).sqrt() - 1.0 / (w_time[j] - t0_fit).sqrt())).abs()
+    };
+    let switches = range_switches(w_time, w_current, &resid, &variation);
     if !switches.is_empty() {
         warnings.push(warn(
             WarningCode::RangeSwitching,

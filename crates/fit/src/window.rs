@@ -496,35 +496,71 @@ pub(crate) fn plateau_check(
         i = j;
     }
     let nb = edges.len() - 1;
+    // Per bin: Σ I·√t, and the squared differences of neighbouring I·√t with their count
+    // (the bin's own noise, which a trend inside the bin barely touches).
     let partial = crate::regression::chunked_ranges(n - start, |a, b| {
         let (a, b) = (a + start, b + start);
         let mut sums = vec![0.0; nb];
+        let mut roots = vec![0.0; nb];
+        let mut diff2 = vec![0.0; nb];
+        let mut pairs = vec![0u32; nb];
         let mut k = edges.partition_point(|&e| e <= a).saturating_sub(1);
+        let mut prev: Option<f64> = None;
         for m in a..b {
             while m >= edges[k + 1] {
                 k += 1;
+                prev = None;
             }
-            sums[k] += faradaic(m) * tt(m).sqrt();
+            let root = tt(m).sqrt();
+            let y = faradaic(m) * root;
+            sums[k] += y;
+            roots[k] += root;
+            if let Some(p) = prev {
+                diff2[k] += (y - p) * (y - p);
+                pairs[k] += 1;
+            }
+            prev = Some(y);
         }
-        sums
+        (sums, roots, diff2, pairs)
     });
     let mut sums = vec![0.0; nb];
-    for part in partial {
-        for (s, v) in sums.iter_mut().zip(part) {
-            *s += v;
+    let mut roots = vec![0.0; nb];
+    let mut diff2 = vec![0.0; nb];
+    let mut pairs = vec![0u32; nb];
+    for (ps, pr, pd, pp) in partial {
+        for k in 0..nb {
+            sums[k] += ps[k];
+            roots[k] += pr[k];
+            diff2[k] += pd[k];
+            pairs[k] += pp[k];
         }
     }
     let mut bin_time_s = Vec::with_capacity(nb);
     let mut bin_value = Vec::with_capacity(nb);
     let mut bin_std_error = Vec::with_capacity(nb);
     let mut bin_start_s = Vec::with_capacity(nb);
+    // The mean of √t over each bin's points is the plateau's regressor: √ of the bin's
+    // centre is not, by a share that depends on the bin's width, and the last, narrower bin
+    // then stood thousands of standard errors off the plateau on a quiet trace.
+    let bin_root: Vec<f64> = (0..nb)
+        .map(|k| roots[k] / (edges[k + 1] - edges[k]) as f64)
+        .collect();
     for k in 0..nb {
         let (i, j) = (edges[k], edges[k + 1]);
         let count = (j - i) as f64;
         // The current's noise, scaled by √t into I·√t, averaged over correlated samples; the
         // bin's time is the geometric mean of its ends.
         let t_mid = (tt(i) * tt(j - 1)).sqrt();
-        let se = noise_sd_a * t_mid.sqrt() * (noise.mean_variance_factor(j - i) / count).sqrt();
+        // The larger of the provisional fit's noise and the bin's own: noise that changes along
+        // the transient (a current range's resolution, the digits an export keeps) would
+        // otherwise make the early bins look far more precise than they are.
+        let own = if pairs[k] > 0 {
+            diff2[k] / (2.0 * f64::from(pairs[k]))
+        } else {
+            0.0
+        };
+        let sd_y = (noise_sd_a * noise_sd_a * t_mid).max(own).sqrt();
+        let se = sd_y * (noise.mean_variance_factor(j - i) / count).sqrt();
         bin_time_s.push(t_mid);
         bin_value.push(sums[k] / count);
         bin_std_error.push(se);
@@ -535,14 +571,17 @@ pub(crate) fn plateau_check(
     let reference = 4;
     for k in reference..nb {
         // Weighted fit of the plateau model to the bins before k, then predict bin k.
-        let (pred, var) = plateau_predict(
-            &bin_time_s[..k],
+        let (pred, var, chi2) = plateau_predict(
+            &bin_root[..k],
             &bin_value[..k],
             &bin_std_error[..k],
-            bin_time_s[k],
+            bin_root[k],
             intercept,
         );
-        let se = (bin_std_error[k].powi(2) + var).sqrt();
+        // When the bins before k scatter about their plateau more than their standard errors
+        // allow, those errors are too small (noise the model does not know, such as the digits
+        // an export keeps); both sides of the comparison are scaled up by the reduced χ².
+        let se = ((bin_std_error[k].powi(2) + var) * chi2.max(1.0)).sqrt();
         bin_z[k] = if se > 0.0 {
             (bin_value[k] - pred) / se
         } else {
@@ -585,41 +624,78 @@ pub(crate) fn plateau_check(
     }
 }
 
-fn plateau_predict(t: &[f64], y: &[f64], se: &[f64], at: f64, intercept: bool) -> (f64, f64) {
+/// The plateau `c0 + c1·√t` fitted to the reference bins (`root` their mean √t), predicted at
+/// `at` (a bin's mean √t): (value, its variance, the reduced χ² of the reference bins about
+/// the fit, 1 when there are no degrees of freedom).
+fn plateau_predict(
+    root: &[f64],
+    y: &[f64],
+    se: &[f64],
+    at: f64,
+    intercept: bool,
+) -> (f64, f64, f64) {
     let w: Vec<f64> = se
         .iter()
         .map(|s| 1.0 / (s * s).max(f64::MIN_POSITIVE))
         .collect();
+    let sw: f64 = w.iter().sum();
+    let ym = w.iter().zip(y).map(|(w, y)| w * y).sum::<f64>() / sw;
+    let reduced = |model: &dyn Fn(f64) -> f64, p: usize| -> f64 {
+        let dof = root.len().saturating_sub(p);
+        if dof == 0 {
+            return 1.0;
+        }
+        let chi2: f64 = w
+            .iter()
+            .zip(root)
+            .zip(y)
+            .map(|((w, x), y)| w * (y - model(*x)).powi(2))
+            .sum();
+        chi2 / dof as f64
+    };
     if !intercept {
-        let sw: f64 = w.iter().sum();
-        let m = w.iter().zip(y).map(|(w, y)| w * y).sum::<f64>() / sw;
-        return (m, 1.0 / sw);
+        return (ym, 1.0 / sw, reduced(&|_| ym, 1));
     }
     // y = c0 + c1·√t, weighted, centred on the weighted mean of √t.
-    let sw: f64 = w.iter().sum();
-    let xm = w.iter().zip(t).map(|(w, t)| w * t.sqrt()).sum::<f64>() / sw;
-    let ym = w.iter().zip(y).map(|(w, y)| w * y).sum::<f64>() / sw;
+    let xm = w.iter().zip(root).map(|(w, x)| w * x).sum::<f64>() / sw;
     let mut sxx = 0.0;
     let mut sxy = 0.0;
-    for ((w, t), y) in w.iter().zip(t).zip(y) {
-        let dx = t.sqrt() - xm;
+    for ((w, x), y) in w.iter().zip(root).zip(y) {
+        let dx = x - xm;
         sxx += w * dx * dx;
         sxy += w * dx * (y - ym);
     }
     if !(sxx > 0.0) {
-        return (ym, 1.0 / sw);
+        return (ym, 1.0 / sw, reduced(&|_| ym, 1));
     }
     let c1 = sxy / sxx;
-    let dx = at.sqrt() - xm;
-    (ym + c1 * dx, 1.0 / sw + dx * dx / sxx)
+    let dx = at - xm;
+    (
+        ym + c1 * dx,
+        1.0 / sw + dx * dx / sxx,
+        reduced(&|x| ym + c1 * (x - xm), 2),
+    )
 }
 
 /// Level shifts that look like current-range switching: a jump between neighbouring residuals
-/// far above their sample-to-sample scatter (12 robust standard deviations) that persists (the
-/// means of the five residuals on each side differ by more than 60 % of it, in its direction).
+/// far above their sample-to-sample scatter (12 robust standard deviations, over the window
+/// and among the 32 neighbouring differences), more than three of the current's smallest
+/// nonzero steps nearby (the file's resolution), and that persists (the means of the five
+/// residuals on each side differ by more than 60 % of it, in its direction).
 /// `residual(i)` gives the residual of sample i of `time_s`. Returns the times of the first
 /// sample after each jump.
-pub(crate) fn range_switches(time_s: &[f64], residual: &(dyn Fn(usize) -> f64 + Sync)) -> Vec<f64> {
+///
+/// Most neighbour pairs cannot hold such a jump and are screened out without evaluating the
+/// model: in a block of 4096 samples no residual difference exceeds the current's difference
+/// by more than the model's variation over the block, `variation(a, b)`, so the residuals are
+/// computed only where `|ΔI|` comes within that of the limit.
+pub(crate) fn range_switches(
+    time_s: &[f64],
+    current_a: &[f64],
+    residual: &(dyn Fn(usize) -> f64 + Sync),
+    variation: &(dyn Fn(usize, usize) -> f64 + Sync),
+) -> Vec<f64> {
+    const BLOCK: usize = 4096;
     let n = time_s.len();
     if n < 20 {
         return Vec::new();
@@ -635,32 +711,60 @@ pub(crate) fn range_switches(time_s: &[f64], residual: &(dyn Fn(usize) -> f64 + 
     if !(sigma > 0.0) {
         return Vec::new();
     }
+    let limit = 12.0 * sigma;
+    // The robust scatter of the 16 neighbour differences on each side of i (the jump itself
+    // left out): noise that changes along the transient, such as the digits an export keeps,
+    // sets a local scale the global one understates at short times.
+    let local_sigma = |i: usize| {
+        let mut d: Vec<f64> = (i.saturating_sub(16).max(1)..(i + 17).min(n))
+            .filter(|&j| j != i)
+            .map(|j| (residual(j) - residual(j - 1)).abs())
+            .collect();
+        let mid = d.len() / 2;
+        1.4826 * *d.select_nth_unstable_by(mid, f64::total_cmp).1
+    };
+    // The smallest nonzero step of the current among the same neighbours: on a smooth trace
+    // written with few digits, the residuals climb in steps of the last digit, and a step of
+    // a few of those is the file's resolution, not a change of range.
+    let local_quantum = |i: usize| {
+        let q = (i.saturating_sub(16).max(1)..(i + 17).min(n))
+            .filter(|&j| j != i)
+            .map(|j| (current_a[j] - current_a[j - 1]).abs())
+            .filter(|&d| d > 0.0)
+            .fold(f64::INFINITY, f64::min);
+        // A flat neighbourhood has no resolution to speak of.
+        if q.is_finite() { q } else { 0.0 }
+    };
     let found = crate::regression::chunked_ranges(n, |a, b| {
         let mut out = Vec::new();
         let start = a.max(5);
         let end = b.min(n - 5);
-        if start >= end {
-            return out;
-        }
-        let mut prev = residual(start - 1);
         let mut i = start;
         while i < end {
-            let r = residual(i);
-            let jump = r - prev;
-            prev = r;
-            if jump.abs() > 12.0 * sigma {
-                let before = (i - 5..i).map(residual).sum::<f64>() / 5.0;
-                let after = (i..i + 5).map(residual).sum::<f64>() / 5.0;
-                if (after - before).abs() > 0.6 * jump.abs() && (after - before) * jump > 0.0 {
-                    out.push(time_s[i]);
-                    i += 5;
-                    if i < end {
-                        prev = residual(i - 1);
-                    }
+            let block_end = (i + BLOCK).min(end);
+            // Any residual jump inside [i, block_end) is at most |ΔI| plus the model's change.
+            let slack = variation(i - 1, block_end - 1);
+            let screen = limit - slack;
+            while i < block_end {
+                if screen > 0.0 && (current_a[i] - current_a[i - 1]).abs() <= screen {
+                    i += 1;
                     continue;
                 }
+                let jump = residual(i) - residual(i - 1);
+                if jump.abs() > limit
+                    && jump.abs() > 12.0 * local_sigma(i)
+                    && (current_a[i] - current_a[i - 1]).abs() > 3.0 * local_quantum(i)
+                {
+                    let before = (i - 5..i).map(residual).sum::<f64>() / 5.0;
+                    let after = (i..i + 5).map(residual).sum::<f64>() / 5.0;
+                    if (after - before).abs() > 0.6 * jump.abs() && (after - before) * jump > 0.0 {
+                        out.push(time_s[i]);
+                        i += 5;
+                        continue;
+                    }
+                }
+                i += 1;
             }
-            i += 1;
         }
         out
     });

@@ -736,3 +736,44 @@ fn pure_cottrell_reports_no_charging_at_any_sampling_rate() {
         }
     }
 }
+
+#[test]
+fn a_noise_free_trace_written_with_seven_digits_is_not_flagged() {
+    // Cottrell plus a 20 nA background at 10 µs, rounded to 7 significant digits as an export
+    // might write it, with no other noise. The rounding error is large at short times and tiny
+    // late, and climbs in steps of the last digit: neither may read as convection, a fall
+    // below the plateau or current-range switching inside the window.
+    let time = grid(1e-5, 1_000_000);
+    let current: Vec<f64> = time
+        .iter()
+        .map(|&t| {
+            let v = cottrell(t) + 2e-8;
+            let q = 10f64.powi(v.log10().floor() as i32 - 6);
+            (v / q).round() * q
+        })
+        .collect();
+    let r = analyze_data(
+        &time,
+        &current,
+        &cell(),
+        &options(),
+        "none".into(),
+        Vec::new(),
+    )
+    .expect("analysis");
+    assert!(
+        matches!(
+            r.window.hi.reason,
+            BoundReason::EndOfData | BoundReason::EdgeDiffusion { .. }
+        ),
+        "{:?}",
+        r.window.hi
+    );
+    assert!(
+        r.range_switches_s.is_empty(),
+        "{:?}",
+        &r.range_switches_s[..5.min(r.range_switches_s.len())]
+    );
+    let d = r.diffusion_m2_s.expect("D");
+    assert!((d.value - D).abs() / D < 1e-5, "{d:?}");
+}
