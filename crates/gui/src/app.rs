@@ -11,11 +11,14 @@ use serde::{Deserialize, Serialize};
 
 use crate::cell_form::{CellPanel, FitChoices};
 use crate::compare::ComparePanel;
+use crate::export::{self, ExportKind};
+use crate::files_window::{FilesAction, FilesWindow, Notice, SaveKind};
 use crate::help::{self, HelpWindow};
 use crate::plots::{PlotInput, PlotPrefs, PlotsPanel, Which};
 use crate::results::{CAUTION, ResultAction, ResultPanel};
 use crate::runs::{FitState, Import, Origin, PALETTE, Run, RunId};
 use crate::runs_panel::{RunsAction, RunsPanel};
+use crate::session::{self, Session};
 use crate::worker::{Job, Outcome, Source, Worker};
 
 /// The key the preferences are stored under; the suffix is their schema version.
@@ -54,6 +57,14 @@ pub enum View {
     Replicates,
 }
 
+/// What a file dialog was shown for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Purpose {
+    OpenRuns,
+    Save(SaveKind),
+    OpenSession,
+}
+
 /// The Diffusor window. Drive it with [`DiffusorApp::ui`]; [`crate::run`] puts it in a native
 /// window.
 #[derive(Debug)]
@@ -75,8 +86,11 @@ pub struct DiffusorApp {
     fitted_with: Option<(Cell, FitChoices)>,
     /// The cell entries have a problem, so results are for the last valid ones.
     stale: bool,
-    /// Paths coming back from the open dialog's thread.
-    dialog: Option<Receiver<Option<Vec<PathBuf>>>>,
+    /// Paths coming back from a file dialog's thread, and what they are for.
+    dialog: Option<(Purpose, Receiver<Option<Vec<PathBuf>>>)>,
+    files: FilesWindow,
+    /// Where the session was last saved or opened from (Ctrl+S writes there again).
+    session_path: Option<PathBuf>,
     status: Option<String>,
     styled: bool,
 }
@@ -102,6 +116,8 @@ impl DiffusorApp {
             fitted_with: None,
             stale: false,
             dialog: None,
+            files: FilesWindow::default(),
+            session_path: None,
             status: None,
             styled: false,
         };
@@ -162,6 +178,9 @@ impl DiffusorApp {
             hi: Default::default(),
             fit: FitState::default(),
             generations: 0,
+            cancelled_through: 0,
+            expected_sha256: None,
+            notice: None,
         });
         if self.focus.is_none() {
             self.focus = Some(id);
@@ -211,6 +230,11 @@ impl DiffusorApp {
     /// Whether an import or a fit is still running.
     pub fn is_busy(&self) -> bool {
         !self.queue.is_empty() || self.runs.iter().any(Run::busy)
+    }
+
+    /// The cell and electrode entries and the fit choices.
+    pub fn cell_panel(&self) -> &CellPanel {
+        &self.cell
     }
 
     /// The plots' view state.
@@ -269,8 +293,25 @@ impl DiffusorApp {
         match outcome {
             Outcome::Imported { id, result } => {
                 let Some(run) = self.run_mut(id) else { return };
+                // A cancelled import's answer comes too late to be wanted.
+                if !matches!(run.import, Import::Loading) {
+                    return;
+                }
                 match result {
                     Ok(data) => {
+                        if let Some(expected) = &run.expected_sha256
+                            && data.sha256.as_ref() != Some(expected)
+                        {
+                            run.notice = Some(format!(
+                                "this file has changed since the session was saved (SHA-256 now {}…, then {}…): the results may differ from what was seen",
+                                data.sha256
+                                    .as_deref()
+                                    .unwrap_or("?")
+                                    .get(..12)
+                                    .unwrap_or("?"),
+                                expected.get(..12).unwrap_or(expected)
+                            ));
+                        }
                         run.import = Import::Ready(data);
                         self.request_fit(id);
                     }
@@ -287,6 +328,9 @@ impl DiffusorApp {
                 result,
             } => {
                 let Some(run) = self.run_mut(id) else { return };
+                if generation <= run.cancelled_through {
+                    return;
+                }
                 if run.fit.pending == Some(generation) {
                     run.fit.pending = None;
                 }
@@ -309,13 +353,31 @@ impl DiffusorApp {
     }
 
     fn start_dialog(&mut self) {
+        self.show_dialog(Purpose::OpenRuns);
+    }
+
+    fn show_dialog(&mut self, purpose: Purpose) {
         let (tx, rx) = channel();
         let pick = move || {
-            let files = rfd::FileDialog::new()
-                .set_title("Open current–time files")
-                .add_filter("Text and CSV", &["csv", "txt", "dat", "tsv", "asc"])
-                .add_filter("All files", &["*"])
-                .pick_files();
+            let dialog = rfd::FileDialog::new();
+            let files = match purpose {
+                Purpose::OpenRuns => dialog
+                    .set_title("Open current–time files")
+                    .add_filter("Text and CSV", &["csv", "txt", "dat", "tsv", "asc"])
+                    .add_filter("All files", &["*"])
+                    .pick_files(),
+                Purpose::OpenSession => dialog
+                    .set_title("Open a Diffusor session")
+                    .add_filter("Session (JSON)", &["json"])
+                    .pick_file()
+                    .map(|p| vec![p]),
+                Purpose::Save(kind) => dialog
+                    .set_title("Save")
+                    .set_file_name(kind.default_name())
+                    .add_filter(kind.extension(), &[kind.extension()])
+                    .save_file()
+                    .map(|p| vec![p]),
+            };
             // The window may be gone by the time the dialog closes; nothing then to tell.
             let _ = tx.send(files);
         };
@@ -323,33 +385,312 @@ impl DiffusorApp {
         // which keeps drawing.
         if cfg!(target_os = "macos") {
             pick();
-            self.dialog = Some(rx);
+            self.dialog = Some((purpose, rx));
         } else {
             match std::thread::Builder::new()
-                .name("diffusor-open-dialog".to_owned())
+                .name("diffusor-file-dialog".to_owned())
                 .spawn(pick)
             {
-                Ok(_) => self.dialog = Some(rx),
-                Err(e) => self.status = Some(format!("cannot show the open dialog: {e}")),
+                Ok(_) => self.dialog = Some((purpose, rx)),
+                Err(e) => self.status = Some(format!("cannot show the file dialog: {e}")),
             }
         }
     }
 
     fn poll_dialog(&mut self) {
-        let Some(rx) = &self.dialog else { return };
+        let Some((purpose, rx)) = &self.dialog else {
+            return;
+        };
+        let purpose = *purpose;
         match rx.try_recv() {
             Ok(Some(paths)) => {
                 self.dialog = None;
-                for p in paths {
-                    self.open_path(&p);
+                match purpose {
+                    Purpose::OpenRuns => {
+                        for p in paths {
+                            self.open_path(&p);
+                        }
+                    }
+                    Purpose::Save(kind) => {
+                        if let Some(p) = paths.into_iter().next() {
+                            self.files.save_path = p.display().to_string();
+                            self.save(kind, &p);
+                        }
+                    }
+                    Purpose::OpenSession => {
+                        if let Some(p) = paths.into_iter().next() {
+                            self.files.session_path = p.display().to_string();
+                            self.open_session_reporting(&p);
+                        }
+                    }
                 }
             }
             Ok(None) | Err(TryRecvError::Disconnected) => {
                 self.dialog = None;
-                self.status = Some("No file chosen. If no dialog appeared (no desktop portal), drop files onto the window, type a path in the Runs panel, or name them on the command line.".to_owned());
+                match purpose {
+                    Purpose::OpenRuns => {
+                        self.status = Some("No file chosen. If no dialog appeared (no desktop portal), drop files onto the window, type a path in the Runs panel, or name them on the command line.".to_owned());
+                    }
+                    Purpose::Save(_) | Purpose::OpenSession => {
+                        self.files.notice = Some(Notice::Failed("No file chosen. If no dialog appeared (no desktop portal), type the path in the field and press the button beside it.".to_owned()));
+                    }
+                }
             }
             Err(TryRecvError::Empty) => {}
         }
+    }
+
+    /// Writes `kind` to `path` (an extension is added when the name has none) and says in the
+    /// Save & export window what came of it.
+    pub fn save(&mut self, kind: SaveKind, path: &Path) {
+        let path = export::with_extension(path, kind.extension());
+        let result = match kind {
+            SaveKind::Export(ExportKind::Report) => self.report_html().and_then(|html| {
+                export::write_atomic(&path, html.as_bytes())
+                    .map(|()| format!("Wrote the report of {} runs to {}", self.runs.len(), path.display()))
+            }),
+            SaveKind::Export(ExportKind::DataCsv) => match self.focused() {
+                Some(run) => export::export_data_csv(run, &path).map(|()| {
+                    format!("Wrote the data of {} to {}", run.name, path.display())
+                }),
+                None => Err("no run in focus: click a run in the Runs panel first".to_owned()),
+            },
+            SaveKind::Session => self.save_session(&path).map(|skipped| {
+                let mut text = format!("Saved the session to {}", path.display());
+                if skipped > 0 {
+                    text.push_str(&format!(
+                        " ({skipped} dropped run{} without a file path left out: save such files to disk and open them by path)",
+                        if skipped == 1 { "" } else { "s" }
+                    ));
+                }
+                text
+            }),
+        };
+        self.files.notice = Some(match result {
+            Ok(t) => Notice::Done(t),
+            Err(e) => {
+                self.files.open = true;
+                Notice::Failed(e)
+            }
+        });
+    }
+
+    /// The HTML report of every run, as `diffusor report` makes it.
+    ///
+    /// # Errors
+    ///
+    /// When there are no runs, or the cell entries cannot be used.
+    pub fn report_html(&self) -> Result<String, String> {
+        let cell = self.cell.form.cell().map_err(|_| {
+            "the cell entries have a problem (see the Cell & electrode panel): fix them before exporting".to_owned()
+        })?;
+        let options = self
+            .cell
+            .choices
+            .options(BoundChoice::Auto, BoundChoice::Auto);
+        export::report_html(&self.runs, &cell, &options)
+    }
+
+    /// The session as it stands, and how many runs could not be put in it (dropped without a
+    /// path on disk).
+    pub fn session(&self) -> (Session, usize) {
+        let mut skipped = 0;
+        let mut runs = Vec::new();
+        let mut focus = None;
+        for run in &self.runs {
+            let source = match &run.origin {
+                Origin::Demo => session::RunSource::Demo {
+                    name: run.name.trim_end_matches(" (demo)").to_owned(),
+                },
+                Origin::File(p) | Origin::Dropped(p) if !p.as_os_str().is_empty() => {
+                    let p = std::path::absolute(p).unwrap_or_else(|_| p.clone());
+                    session::RunSource::File {
+                        path: p.display().to_string(),
+                    }
+                }
+                Origin::File(_) | Origin::Dropped(_) => {
+                    skipped += 1;
+                    continue;
+                }
+            };
+            let bound = |c: BoundChoice| match c {
+                BoundChoice::Auto => None,
+                BoundChoice::At(t) => Some(t),
+            };
+            if Some(run.id) == self.focus {
+                focus = Some(runs.len());
+            }
+            runs.push(session::SessionRun {
+                source,
+                // A run still being read keeps the hash its session gave it, if any.
+                sha256: run
+                    .data()
+                    .and_then(|d| d.sha256.clone())
+                    .or_else(|| run.expected_sha256.clone()),
+                selected: run.selected,
+                window_lo_s: bound(run.lo.choice),
+                window_hi_s: bound(run.hi.choice),
+                model: session::PLANAR_MODEL.to_owned(),
+            });
+        }
+        let s = Session {
+            schema: session::SCHEMA.to_owned(),
+            program_version: env!("CARGO_PKG_VERSION").to_owned(),
+            cell: session::CellEntries::of(&self.cell.form),
+            choices: self.cell.choices.into(),
+            runs,
+            focus,
+        };
+        (s, skipped)
+    }
+
+    /// Saves the session to `path`, atomically; returns how many runs were left out.
+    ///
+    /// # Errors
+    ///
+    /// The message to show.
+    pub fn save_session(&mut self, path: &Path) -> Result<usize, String> {
+        let (s, skipped) = self.session();
+        export::write_atomic(path, s.to_json().as_bytes())?;
+        self.session_path = Some(path.to_path_buf());
+        Ok(skipped)
+    }
+
+    fn open_session_reporting(&mut self, path: &Path) {
+        match self.open_session(path) {
+            Ok(n) => {
+                self.files.notice = Some(Notice::Done(format!(
+                    "Opened the session {} ({n} run{})",
+                    path.display(),
+                    if n == 1 { "" } else { "s" }
+                )));
+            }
+            Err(e) => {
+                self.files.open = true;
+                self.files.notice = Some(Notice::Failed(format!("{e}. Nothing was changed.")));
+            }
+        }
+    }
+
+    /// Replaces the runs, cell entries, choices and windows with those of the session at
+    /// `path`, and returns how many runs it holds. A file that cannot be read as a whole
+    /// session changes nothing.
+    ///
+    /// # Errors
+    ///
+    /// Why the file was refused.
+    pub fn open_session(&mut self, path: &Path) -> Result<usize, String> {
+        let shown = path.display().to_string();
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| format!("cannot read the session ({e}): {shown}"))?;
+        let s = session::parse(&text, &shown)?;
+        let form = s.cell.form()?;
+        let base = path.parent().map(Path::to_path_buf);
+        self.runs.clear();
+        self.focus = None;
+        self.queue.clear();
+        self.fitted_with = None;
+        self.cell.form = form;
+        self.cell.choices = s.choices.into();
+        let mut ids = Vec::new();
+        for saved in &s.runs {
+            let id = match &saved.source {
+                session::RunSource::Demo { name } => {
+                    let demo = crate::demo::FILES.iter().find(|f| f.name == name);
+                    let id = self.add_run(format!("{name} (demo)"), Origin::Demo);
+                    match demo {
+                        Some(f) => self.queue.push(Job::Import {
+                            id,
+                            name: f.name.to_owned(),
+                            source: Source::Bytes(f.bytes),
+                        }),
+                        None => {
+                            if let Some(run) = self.run_mut(id) {
+                                run.import = Import::Failed(format!(
+                                    "this version has no demo file named {name}"
+                                ));
+                            }
+                        }
+                    }
+                    id
+                }
+                session::RunSource::File { path: p } => {
+                    let mut p = PathBuf::from(p);
+                    // A session moved together with its files (another machine, a shared
+                    // folder) finds them beside it; the hash still tells whether they are the
+                    // same bytes.
+                    if !p.is_file()
+                        && let (Some(dir), Some(name)) = (&base, p.file_name())
+                        && dir.join(name).is_file()
+                    {
+                        p = dir.join(name);
+                    }
+                    let name = file_name(&p);
+                    let id = self.add_run(name.clone(), Origin::File(p.clone()));
+                    self.queue.push(Job::Import {
+                        id,
+                        name,
+                        source: Source::Path(p),
+                    });
+                    id
+                }
+            };
+            if let Some(run) = self.run_mut(id) {
+                run.selected = saved.selected;
+                run.expected_sha256.clone_from(&saved.sha256);
+                for (field, bound) in [
+                    (&mut run.lo, saved.window_lo_s),
+                    (&mut run.hi, saved.window_hi_s),
+                ] {
+                    if let Some(t) = bound {
+                        field.choice = BoundChoice::At(t);
+                        field.show_time(t);
+                    }
+                }
+                if saved.model != session::PLANAR_MODEL {
+                    run.notice = Some(format!(
+                        "saved with the model “{}”, which this version does not offer: fitted with planar Cottrell",
+                        saved.model
+                    ));
+                }
+            }
+            ids.push(id);
+        }
+        self.focus = s
+            .focus
+            .and_then(|k| ids.get(k).copied())
+            .or(ids.first().copied());
+        self.session_path = Some(path.to_path_buf());
+        Ok(ids.len())
+    }
+
+    fn files_actions(&mut self, actions: Vec<FilesAction>) {
+        for a in actions {
+            match a {
+                FilesAction::Save { kind, path } => self.save(kind, &path),
+                FilesAction::BrowseSave(kind) => self.show_dialog(Purpose::Save(kind)),
+                FilesAction::BrowseSession => self.show_dialog(Purpose::OpenSession),
+                FilesAction::OpenSession(p) => self.open_session_reporting(&p),
+            }
+        }
+    }
+
+    /// The Save & export window's view state.
+    pub fn files_window(&self) -> &FilesWindow {
+        &self.files
+    }
+
+    fn focus_step(&mut self, step: isize) {
+        if self.runs.is_empty() {
+            return;
+        }
+        let at = self
+            .focus
+            .and_then(|id| self.runs.iter().position(|r| r.id == id))
+            .unwrap_or(0);
+        let n = self.runs.len() as isize;
+        let next = (at as isize + step).rem_euclid(n) as usize;
+        self.focus = Some(self.runs[next].id);
     }
 
     fn toggle_theme(&mut self, ctx: &egui::Context) {
@@ -386,6 +727,24 @@ impl DiffusorApp {
         }
         if pressed(help::HELP) {
             self.help.open = !self.help.open;
+        }
+        if pressed(help::EXPORT) {
+            self.files.open = !self.files.open;
+        }
+        if pressed(help::SAVE_SESSION) {
+            match self.session_path.clone() {
+                Some(p) => self.save(SaveKind::Session, &p),
+                None => {
+                    self.files.kind = SaveKind::Session;
+                    self.files.open = true;
+                }
+            }
+        }
+        if pressed(help::NEXT_RUN) {
+            self.focus_step(1);
+        }
+        if pressed(help::PREVIOUS_RUN) {
+            self.focus_step(-1);
         }
     }
 
@@ -448,6 +807,8 @@ impl DiffusorApp {
             View::Replicates => self.compare.ui(ui, &self.runs),
         });
         self.help.show(&ctx);
+        let actions = self.files.show(&ctx);
+        self.files_actions(actions);
         if ctx.input(|i| !i.raw.hovered_files.is_empty()) {
             drop_hint(&ctx);
         }
@@ -497,6 +858,13 @@ impl DiffusorApp {
                     .clicked()
                 {
                     self.refit_all();
+                }
+                if ui
+                    .button("Save & export…")
+                    .on_hover_text("Report, data, session (Ctrl+E)")
+                    .clicked()
+                {
+                    self.files.open = !self.files.open;
                 }
                 ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
                     if ui

@@ -44,6 +44,8 @@ pub struct RunData {
     pub sign_reversed: bool,
     /// How many potential steps the file holds.
     pub steps: usize,
+    /// SHA-256 of the bytes read, in hex (what a session records to tell a changed file).
+    pub sha256: Option<String>,
 }
 
 impl RunData {
@@ -70,6 +72,7 @@ impl RunData {
             step,
             sign_reversed,
             steps,
+            sha256: None,
         })
     }
 }
@@ -239,6 +242,12 @@ pub struct Run {
     pub fit: FitState,
     /// Generation counter for fits, so a late result of an older request is not shown.
     pub generations: u64,
+    /// Fits up to this generation were cancelled: their results are dropped when they come.
+    pub cancelled_through: u64,
+    /// The SHA-256 a saved session recorded for this run's file, to compare on import.
+    pub expected_sha256: Option<String>,
+    /// A warning about the run that is not the fit's (a changed file, an unknown model).
+    pub notice: Option<String>,
 }
 
 impl Run {

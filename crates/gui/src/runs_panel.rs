@@ -206,6 +206,17 @@ impl RunsPanel {
                         }
                     }
                 });
+                if let Some(n) = &run.notice {
+                    ui.horizontal_top(|ui| {
+                        ui.add_space(20.0);
+                        ui.add(
+                            egui::Label::new(
+                                RichText::new(format!("▲ {n}")).color(ui.visuals().warn_fg_color),
+                            )
+                            .wrap(),
+                        );
+                    });
+                }
             });
         }
         actions

@@ -8,8 +8,9 @@ use std::sync::mpsc::{Receiver, Sender, TryRecvError, channel};
 
 use diffusor_fit::cell::Cell;
 use diffusor_fit::planar::{PlanarOptions, analyze};
-use diffusor_trace::{ImportOptions, import_bytes, import_path};
+use diffusor_trace::{ImportOptions, import_bytes};
 use eframe::egui;
+use sha2::{Digest, Sha256};
 
 use crate::runs::{FitView, RunData, RunId};
 
@@ -156,36 +157,45 @@ fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
     }
 }
 
+/// A file's bytes, labelled as the importer labels a path (its messages end with it).
+fn read_file(path: &std::path::Path) -> Result<(String, std::borrow::Cow<'static, [u8]>), String> {
+    let label = path.display().to_string();
+    std::fs::read(path)
+        .map(|b| (label.clone(), std::borrow::Cow::Owned(b)))
+        .map_err(|e| format!("cannot read the file ({e}): {label}"))
+}
+
 fn run_job(job: Job) -> Outcome {
     match job {
         Job::Import { id, name, source } => {
             let options = ImportOptions::default();
-            let trace = match source {
-                Source::Bytes(bytes) => import_bytes(&name, bytes, &options),
-                Source::Path(path) => import_path(&path, &options),
+            // The bytes are read here rather than by the importer so that their SHA-256 (which
+            // a saved session compares) is of exactly what was fitted.
+            let read = match source {
+                Source::Bytes(bytes) => Ok((name.clone(), std::borrow::Cow::Borrowed(bytes))),
+                Source::Path(path) => read_file(&path),
                 Source::Dropped(handle) => {
                     let path = handle.path();
                     if path.is_file() {
-                        import_path(path, &options)
+                        read_file(path)
                     } else {
-                        match handle.bytes() {
-                            Ok(bytes) => import_bytes(&name, &bytes, &options),
-                            Err(e) => {
-                                return Outcome::Imported {
-                                    id,
-                                    result: Err(format!(
-                                        "cannot read the dropped file ({e}): {name}"
-                                    )),
-                                };
-                            }
-                        }
+                        handle
+                            .bytes()
+                            .map(|b| (name.clone(), std::borrow::Cow::Owned(b)))
+                            .map_err(|e| format!("cannot read the dropped file ({e}): {name}"))
                     }
                 }
             };
-            let result = trace
-                .map_err(|e| e.to_string())
-                .and_then(RunData::new)
-                .map(Arc::new);
+            let result = read.and_then(|(label, bytes)| {
+                let sha = format!("{:x}", Sha256::digest(&bytes));
+                import_bytes(&label, &bytes, &options)
+                    .map_err(|e| e.to_string())
+                    .and_then(RunData::new)
+                    .map(|mut d| {
+                        d.sha256 = Some(sha);
+                        Arc::new(d)
+                    })
+            });
             Outcome::Imported { id, result }
         }
         Job::Fit {
