@@ -10,6 +10,7 @@ use diffusor_trace::{Segment, Trace};
 use eframe::egui::Color32;
 
 use crate::cell_form::parse_number;
+use crate::decimate::Pyramid;
 use crate::format;
 
 /// Identifies a run for as long as the window is open.
@@ -46,6 +47,8 @@ pub struct RunData {
     pub steps: usize,
     /// SHA-256 of the bytes read, in hex (what a session records to tell a changed file).
     pub sha256: Option<String>,
+    /// Block extremes of `current_a`, so a frame draws ten million samples quickly.
+    pub current_pyramid: Pyramid,
 }
 
 impl RunData {
@@ -73,6 +76,11 @@ impl RunData {
             sign_reversed,
             steps,
             sha256: None,
+            current_pyramid: Pyramid::default(),
+        })
+        .map(|mut d| {
+            d.current_pyramid = Pyramid::new(&d.current_a);
+            d
         })
     }
 }
@@ -92,6 +100,12 @@ pub struct FitView {
     pub normalised: Vec<f64>,
     /// The largest |I − I_fit| inside the window, in A: how far the residual plot must reach.
     pub window_residual_max_a: f64,
+    /// Block extremes of `residual_a`.
+    pub residual_pyramid: Pyramid,
+    /// Block extremes of `i_sqrt_t`.
+    pub i_sqrt_t_pyramid: Pyramid,
+    /// Block extremes of `normalised`.
+    pub normalised_pyramid: Pyramid,
 }
 
 impl FitView {
@@ -126,6 +140,9 @@ impl FitView {
             .filter(|r| r.is_finite())
             .fold(0.0_f64, |m, r| m.max(r.abs()));
         FitView {
+            residual_pyramid: Pyramid::new(&residual_a),
+            i_sqrt_t_pyramid: Pyramid::new(&i_sqrt_t),
+            normalised_pyramid: Pyramid::new(&normalised),
             window_residual_max_a,
             result,
             residual_a,
