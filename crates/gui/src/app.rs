@@ -93,6 +93,16 @@ pub struct DiffusorApp {
     session_path: Option<PathBuf>,
     status: Option<String>,
     styled: bool,
+    /// Jobs handed to the worker and answered since it was last idle: the progress bar.
+    progress: Progress,
+}
+
+/// How far the background work has come since it was last idle.
+#[derive(Debug, Clone, Copy, Default)]
+struct Progress {
+    sent: usize,
+    answered: usize,
+    since: Option<std::time::Instant>,
 }
 
 impl DiffusorApp {
@@ -120,6 +130,7 @@ impl DiffusorApp {
             session_path: None,
             status: None,
             styled: false,
+            progress: Progress::default(),
         };
         if files.is_empty() {
             app.load_demo();
@@ -680,6 +691,38 @@ impl DiffusorApp {
         &self.files
     }
 
+    /// Stops the reading and fitting in progress: queued work is dropped, runs being read are
+    /// marked as cancelled, fits being computed keep their previous result, and answers still
+    /// on their way are ignored when they come.
+    pub fn cancel_work(&mut self) {
+        if let Some(w) = &self.worker {
+            w.cancel();
+        }
+        self.queue.clear();
+        let mut stopped = 0;
+        for run in &mut self.runs {
+            if matches!(run.import, Import::Loading) {
+                run.import = Import::Failed(
+                    "reading was cancelled: open the file again (Open files…, or type its path) to read it"
+                        .to_owned(),
+                );
+                run.selected = false;
+                stopped += 1;
+            }
+            if run.fit.pending.take().is_some() {
+                run.cancelled_through = run.generations;
+                stopped += 1;
+            }
+        }
+        // What the cell was last fitted with is unknown now: the next valid edit refits.
+        self.fitted_with = None;
+        self.progress = Progress::default();
+        self.status = Some(format!(
+            "Cancelled {stopped} step{}. Refit (Ctrl+R) to fit again.",
+            if stopped == 1 { "" } else { "s" }
+        ));
+    }
+
     fn focus_step(&mut self, step: isize) {
         if self.runs.is_empty() {
             return;
@@ -728,6 +771,9 @@ impl DiffusorApp {
         if pressed(help::HELP) {
             self.help.open = !self.help.open;
         }
+        if self.is_busy() && pressed(help::CANCEL) {
+            self.cancel_work();
+        }
         if pressed(help::EXPORT) {
             self.files.open = !self.files.open;
         }
@@ -764,8 +810,12 @@ impl DiffusorApp {
         }
         if let Some(w) = &self.worker {
             for o in w.received() {
+                self.progress.answered += 1;
                 self.receive(o);
             }
+        }
+        if !self.is_busy() {
+            self.progress = Progress::default();
         }
         for f in ctx.input(|i| i.raw.dropped_files.clone()) {
             self.open_dropped(f);
@@ -829,6 +879,10 @@ impl DiffusorApp {
         }
         if let Some(w) = &self.worker {
             for job in self.queue.drain(..) {
+                self.progress.sent += 1;
+                self.progress
+                    .since
+                    .get_or_insert_with(std::time::Instant::now);
                 if !w.send(job) {
                     self.status =
                         Some("the background worker stopped; restart Diffusor".to_owned());
@@ -901,11 +955,43 @@ impl DiffusorApp {
                 let busy = self.runs.iter().filter(|r| r.busy()).count();
                 if busy > 0 {
                     ui.spinner();
+                    let reading = self
+                        .runs
+                        .iter()
+                        .find(|r| matches!(r.import, Import::Loading))
+                        .map(|r| r.name.as_str());
+                    let what = match reading {
+                        Some(name) => format!("reading {name}"),
+                        None => "fitting".to_owned(),
+                    };
                     ui.label(format!(
-                        "working on {busy} run{}…",
+                        "{what}; {busy} run{} to go",
                         if busy == 1 { "" } else { "s" }
                     ));
+                    let p = self.progress;
+                    let total = p.sent.max(1);
+                    let secs = p.since.map_or(0.0, |t| t.elapsed().as_secs_f32());
+                    ui.add(
+                        egui::ProgressBar::new(p.answered.min(total) as f32 / total as f32)
+                            .desired_width(160.0)
+                            .text(format!(
+                                "{} of {} steps, {secs:.0} s",
+                                p.answered.min(total),
+                                p.sent
+                            )),
+                    )
+                    .on_hover_text("Each file is one step to read and one to fit");
+                    if ui
+                        .button("Cancel")
+                        .on_hover_text("Stop reading and fitting (Esc); the results so far stay")
+                        .clicked()
+                    {
+                        self.cancel_work();
+                    }
                     ui.separator();
+                    // The elapsed time moves even when no answer comes.
+                    ui.ctx()
+                        .request_repaint_after(std::time::Duration::from_millis(250));
                 }
                 if let Some(s) = &self.status {
                     ui.colored_label(ui.visuals().warn_fg_color, s);

@@ -24,11 +24,13 @@ pub const SAVE_SESSION: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMM
 pub const NEXT_RUN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::ALT, Key::ArrowDown);
 /// The previous run in the list.
 pub const PREVIOUS_RUN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::ALT, Key::ArrowUp);
+/// Stop the reading and fitting in progress.
+pub const CANCEL: KeyboardShortcut = KeyboardShortcut::new(Modifiers::NONE, Key::Escape);
 /// This window.
 pub const HELP: KeyboardShortcut = KeyboardShortcut::new(Modifiers::NONE, Key::F1);
 
 /// Every shortcut with what it does, in the order the help lists them.
-pub const SHORTCUTS: [(KeyboardShortcut, &str); 11] = [
+pub const SHORTCUTS: [(KeyboardShortcut, &str); 12] = [
     (OPEN, "open files"),
     (EXPORT, "save & export: report, data, session"),
     (SAVE_SESSION, "save the session"),
@@ -39,6 +41,7 @@ pub const SHORTCUTS: [(KeyboardShortcut, &str); 11] = [
     (THEME, "light or dark theme"),
     (FIT_VIEW, "fit view"),
     (REPLICATE_VIEW, "replicate comparison"),
+    (CANCEL, "cancel the reading and fitting in progress"),
     (HELP, "this help"),
 ];
 

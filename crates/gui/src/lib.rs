@@ -31,6 +31,7 @@ pub mod export;
 pub mod files_window;
 pub mod format;
 pub mod help;
+pub mod messages;
 pub mod plots;
 pub mod results;
 pub mod runs;

@@ -228,7 +228,11 @@ impl ResultPanel {
                         ui.label("cathodic step: the current's sign is reversed for the fit and the plots");
                     }
                     for w in &data.trace.warnings {
-                        wrapped(ui, RichText::new(&w.message).color(warn_colour(ui)));
+                        wrapped(
+                            ui,
+                            RichText::new(crate::messages::import_warning(&w.message))
+                                .color(warn_colour(ui)),
+                        );
                     }
                 });
         }

@@ -4,6 +4,7 @@
 
 use std::path::PathBuf;
 use std::sync::Arc;
+use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::mpsc::{Receiver, Sender, TryRecvError, channel};
 
 use diffusor_fit::cell::Cell;
@@ -86,24 +87,40 @@ pub enum Outcome {
 /// The handle to the background thread.
 #[derive(Debug)]
 pub struct Worker {
-    jobs: Sender<Job>,
+    jobs: Sender<(u64, Job)>,
     outcomes: Receiver<Outcome>,
+    /// Jobs sent before the latest cancel carry a smaller number and are skipped.
+    epoch: Arc<AtomicU64>,
 }
 
 impl Worker {
     /// Starts the thread; each outcome calls `ctx.request_repaint()`.
     pub fn spawn(ctx: egui::Context) -> std::io::Result<Worker> {
-        let (jobs, job_rx) = channel::<Job>();
+        let (jobs, job_rx) = channel::<(u64, Job)>();
         let (out_tx, outcomes) = channel::<Outcome>();
+        let epoch = Arc::new(AtomicU64::new(0));
+        let seen = Arc::clone(&epoch);
         std::thread::Builder::new()
             .name("diffusor-worker".to_owned())
-            .spawn(move || work(&job_rx, &out_tx, &ctx))?;
-        Ok(Worker { jobs, outcomes })
+            .spawn(move || work(&job_rx, &out_tx, &ctx, &seen))?;
+        Ok(Worker {
+            jobs,
+            outcomes,
+            epoch,
+        })
     }
 
     /// Hands a job to the thread. `false` when the thread has gone.
     pub fn send(&self, job: Job) -> bool {
-        self.jobs.send(job).is_ok()
+        self.jobs
+            .send((self.epoch.load(Ordering::Acquire), job))
+            .is_ok()
+    }
+
+    /// Drops every job not yet started. The one running finishes (the importer and the fit
+    /// cannot be interrupted), and its outcome is for the caller to ignore.
+    pub fn cancel(&self) {
+        self.epoch.fetch_add(1, Ordering::AcqRel);
     }
 
     /// The outcomes that have arrived.
@@ -118,14 +135,25 @@ impl Worker {
     }
 }
 
-fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
+fn work(
+    jobs: &Receiver<(u64, Job)>,
+    outcomes: &Sender<Outcome>,
+    ctx: &egui::Context,
+    epoch: &AtomicU64,
+) {
     while let Ok(first) = jobs.recv() {
         // Everything queued meanwhile is looked at together, so that a fit already superseded
         // by a newer request for the same run (typing in a field sends one per key) is skipped.
-        let mut batch = vec![first];
+        let mut tagged = vec![first];
         while let Ok(j) = jobs.try_recv() {
-            batch.push(j);
+            tagged.push(j);
         }
+        let now = epoch.load(Ordering::Acquire);
+        let batch: Vec<Job> = tagged
+            .into_iter()
+            .filter(|(e, _)| *e >= now)
+            .map(|(_, j)| j)
+            .collect();
         let newest = |id: RunId| {
             batch
                 .iter()
@@ -145,7 +173,8 @@ fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
             })
             .collect();
         for (job, keep) in batch.into_iter().zip(keep) {
-            if !keep {
+            // A cancel while this batch runs drops the rest of it.
+            if !keep || epoch.load(Ordering::Acquire) != now {
                 continue;
             }
             let outcome = run_job(job);
@@ -189,7 +218,7 @@ fn run_job(job: Job) -> Outcome {
             let result = read.and_then(|(label, bytes)| {
                 let sha = format!("{:x}", Sha256::digest(&bytes));
                 import_bytes(&label, &bytes, &options)
-                    .map_err(|e| e.to_string())
+                    .map_err(|e| crate::messages::import_error(&e))
                     .and_then(RunData::new)
                     .map(|mut d| {
                         d.sha256 = Some(sha);

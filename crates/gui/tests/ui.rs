@@ -363,7 +363,8 @@ fn a_broken_file_shows_its_error_beside_the_run() {
     settle(&mut h);
     // The importer's message (crates/trace, TimeNotIncreasing), shown in the list beside the
     // run and in the Result panel.
-    let message = "line 5: time goes backwards (0.0015 s after 0.002 s); a trace must be in time order: broken.csv";
+    // The importer's message (crates/trace, TimeBackwards), then what to do in the window.
+    let message = "line 5: time goes backwards (0.0015 s after 0.002 s); a trace must be in time order: broken.csv\nThe file may hold several records one after the other: save each in a file of its own and open them one by one.";
     assert_eq!(run_named(&h, "broken.csv").error(), Some(message));
     assert!(
         !run_named(&h, "broken.csv").selected,
@@ -693,4 +694,71 @@ fn a_file_changed_since_the_session_loads_with_a_warning() {
     );
     assert!(run.fit_view().is_some(), "it still loads and fits");
     h.get_by_label(&format!("▲ {warning}"));
+}
+
+#[test]
+fn cancelling_a_big_import_leaves_the_window_usable() {
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    // A million rows: long enough to read that the cancel comes first or during the read.
+    let big = dir.path().join("big.csv");
+    let mut text = String::from("time (s),current (A)\n");
+    for k in 1..=1_000_000_u32 {
+        let t = f64::from(k) * 1e-5;
+        text.push_str(&format!("{t:e},{:e}\n", 1e-5 / t.sqrt()));
+    }
+    std::fs::write(&big, text).expect("written");
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&big)));
+    h.step();
+    assert!(h.state().is_busy());
+    h.get_by_role_and_label(Role::Button, "Cancel").click();
+    h.step();
+    assert!(!h.state().is_busy(), "nothing is left running");
+    let cancelled = run_named(&h, "big.csv").error().map(str::to_owned);
+    assert!(
+        cancelled
+            .as_deref()
+            .is_some_and(|e| e.starts_with("reading was cancelled")),
+        "{cancelled:?}"
+    );
+
+    // The window still reads and fits: the worker answers after the cancelled read, so by the
+    // time this file is fitted the late answer for big.csv has come and been dropped.
+    let rep1 = dir.path().join("rep1.csv");
+    std::fs::write(&rep1, REP1).expect("written");
+    retype(&mut h, "Path", &rep1.display().to_string());
+    settle(&mut h);
+    // This window started without the demo, so its cell is empty and the fit gives the slope.
+    let run = run_named(&h, "rep1.csv");
+    assert!(run.fit_view().is_some(), "{:?}", run.error());
+    assert_eq!(run_named(&h, "big.csv").error(), cancelled.as_deref());
+}
+
+#[test]
+fn shortcuts_step_through_runs_and_open_the_export_window() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let ids: Vec<_> = h.state().runs().iter().map(|r| r.id).collect();
+    assert_eq!(h.state().focused().map(|r| r.id), Some(ids[0]));
+    h.key_press_modifiers(Modifiers::ALT, Key::ArrowDown);
+    h.run();
+    assert_eq!(h.state().focused().map(|r| r.id), Some(ids[1]));
+    h.key_press_modifiers(Modifiers::ALT, Key::ArrowUp);
+    h.key_press_modifiers(Modifiers::ALT, Key::ArrowUp);
+    h.run();
+    assert_eq!(
+        h.state().focused().map(|r| r.id),
+        ids.last().copied(),
+        "previous from the first wraps to the last"
+    );
+    h.key_press_modifiers(Modifiers::COMMAND, Key::E);
+    h.run();
+    assert!(h.state().files_window().open);
+    h.get_by_label("Save to");
+    // Ctrl+S with no session file yet asks where, with the session chosen.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::S);
+    h.run();
+    assert_eq!(
+        h.state().files_window().kind,
+        diffusor_gui::files_window::SaveKind::Session
+    );
 }
