@@ -182,14 +182,17 @@ impl Pyramid {
         let mut i = range.start;
         let usable = self.len == y.len() && !self.levels.is_empty();
         while i < end {
-            let level = usable
-                .then(|| {
-                    (0..self.levels.len()).rev().find(|&k| {
-                        let size = 1usize << (BASE_SHIFT as usize + k);
-                        i.is_multiple_of(size) && i + size <= end
-                    })
-                })
-                .flatten();
+            // The largest block that starts at i (its alignment) and ends by `end` (its size),
+            // found from the bits of i and of the length left rather than by trying each level.
+            let level = if usable {
+                let aligned = if i == 0 { u32::MAX } else { i.trailing_zeros() };
+                let fits = (end - i).ilog2();
+                let shift = aligned.min(fits);
+                (shift >= BASE_SHIFT)
+                    .then(|| ((shift - BASE_SHIFT) as usize).min(self.levels.len() - 1))
+            } else {
+                None
+            };
             match level {
                 Some(k) => {
                     let shift = BASE_SHIFT as usize + k;
@@ -340,7 +343,7 @@ mod tests {
             })
             .collect();
         let p = Pyramid::new(&y);
-        for (a, b) in [
+        let fixed = [
             (0, 5000),
             (1, 4999),
             (31, 33),
@@ -348,7 +351,11 @@ mod tests {
             (100, 3000),
             (4990, 5000),
             (3, 4),
-        ] {
+        ];
+        let spread = (0..5000)
+            .step_by(173)
+            .flat_map(|a| ((a + 1)..=5000).step_by(211).map(move |b| (a, b)));
+        for (a, b) in fixed.into_iter().chain(spread) {
             let scan = |better: fn(f64, f64) -> bool| {
                 (a..b)
                     .filter(|&i| y[i].is_finite())
