@@ -10,13 +10,18 @@ use eframe::egui::{self, RichText};
 use crate::export::ExportKind;
 
 /// Something the window can save.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum SaveKind {
-    /// An export.
+    /// An export (the report unless chosen otherwise).
     Export(ExportKind),
     /// The session file.
-    #[default]
     Session,
+}
+
+impl Default for SaveKind {
+    fn default() -> Self {
+        SaveKind::Export(ExportKind::Report)
+    }
 }
 
 impl SaveKind {
@@ -101,6 +106,8 @@ impl FilesWindow {
         let mut open = self.open;
         egui::Window::new("Save & export")
             .open(&mut open)
+            // Over the plots, clear of the Runs list and of the Help window's place.
+            .default_pos([380.0, 40.0])
             .default_width(560.0)
             .show(ctx, |ui| actions = self.ui(ui));
         self.open = open;

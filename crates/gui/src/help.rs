@@ -62,6 +62,7 @@ impl HelpWindow {
         let mut open = self.open;
         egui::Window::new("Help & notes")
             .open(&mut open)
+            .default_pos([720.0, 40.0])
             .default_width(520.0)
             .default_height(560.0)
             .vscroll(true)

@@ -37,10 +37,9 @@ const QUANTITIES: [Quantity; 4] = [
 fn advice(e: &ImportError) -> Option<String> {
     match e {
         ImportError::MissingColumn { quantity, .. } => Some(format!(
-            "The window cannot pick columns by hand yet: give the {} column a header that names it, such as “{}”, save the file and open it again with Open files… (on the command line, {} N picks column N).",
+            "The window cannot pick columns by hand yet: in a copy of the file, give the {} column a header that names it, such as “{}”, then open the copy (Open files…, or type its path above the list).",
             quantity.name(),
             header_example(*quantity),
-            flag(*quantity)
         )),
         ImportError::SingleColumn { .. } | ImportError::NoTable { .. } => Some(
             "Open the file in a text editor: the window reads tables of numbers with a time and a current column, separated by commas, semicolons, tabs or spaces. Export the trace again as CSV or text if it is something else, then open that file.".to_owned(),
@@ -68,8 +67,16 @@ fn swap_flag_hint(message: &str) -> String {
     m
 }
 
+/// A message of [`import_error`] split into the importer's sentence and the advice after it.
+pub fn split(message: &str) -> (&str, Option<&str>) {
+    match message.split_once('\n') {
+        Some((what, todo)) => (what, Some(todo)),
+        None => (message, None),
+    }
+}
+
 /// The message to show beside a run whose file could not be read: the importer's, in the
-/// window's terms, then what to do.
+/// window's terms, then (after a line break) what to do.
 pub fn import_error(e: &ImportError) -> String {
     let m = swap_flag_hint(&e.to_string());
     match advice(e) {
@@ -129,7 +136,8 @@ mod tests {
                 "no current column found among “t”, “u” (give it a header such as “I (µA)”): x.csv"
             )
         );
-        assert!(shown.contains("open it again with Open files…"), "{shown}");
+        assert!(shown.contains("then open the copy (Open files…"), "{shown}");
+        assert!(!shown.contains("--"), "{shown}");
     }
 
     #[test]

@@ -136,11 +136,19 @@ impl ResultPanel {
                 return None;
             }
             Import::Failed(e) => {
+                // The importer's sentence in red; the advice under it in the normal colour, so
+                // it reads as what to do rather than as more of the error.
+                let (what, todo) = crate::messages::split(e);
                 wrapped(
                     ui,
-                    RichText::new(format!("The file could not be read: {e}"))
+                    RichText::new(format!("The file could not be read: {what}"))
                         .color(ui.visuals().error_fg_color),
                 );
+                if let Some(todo) = todo {
+                    ui.add_space(4.0);
+                    ui.strong("What to do");
+                    wrapped(ui, RichText::new(todo));
+                }
                 return None;
             }
             Import::Ready(_) => {}

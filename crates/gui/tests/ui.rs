@@ -370,8 +370,11 @@ fn a_broken_file_shows_its_error_beside_the_run() {
         !run_named(&h, "broken.csv").selected,
         "an unreadable file is left out of the overlays and the comparison"
     );
-    h.get_by_label(&format!("cannot read: {message}"));
-    h.get_by_label(&format!("The file could not be read: {message}"));
+    let (what, todo) = message.split_once('\n').expect("an error, then advice");
+    h.get_by_label(&format!("cannot read: {what}"));
+    h.get_by_label(&format!("The file could not be read: {what}"));
+    h.get_by_label("What to do");
+    h.get_by_label(todo);
     // The other runs are untouched.
     assert!(d_cm2_s(run_named(&h, "planar-rep1.csv (demo)")) > 0.0);
 }
