@@ -91,6 +91,10 @@ pub struct DiffusorApp {
     files: FilesWindow,
     /// Where the session was last saved or opened from (Ctrl+S writes there again).
     session_path: Option<PathBuf>,
+    /// The answer of the export being written, when one is.
+    writing: Option<Receiver<Result<String, String>>>,
+    /// The egui context, once the first frame has given it (for repaints from other threads).
+    ctx: Option<egui::Context>,
     status: Option<String>,
     styled: bool,
     /// Jobs handed to the worker and answered since it was last idle: the progress bar.
@@ -128,6 +132,8 @@ impl DiffusorApp {
             dialog: None,
             files: FilesWindow::default(),
             session_path: None,
+            writing: None,
+            ctx: None,
             status: None,
             styled: false,
             progress: Progress::default(),
@@ -240,7 +246,7 @@ impl DiffusorApp {
 
     /// Whether an import or a fit is still running.
     pub fn is_busy(&self) -> bool {
-        !self.queue.is_empty() || self.runs.iter().any(Run::busy)
+        !self.queue.is_empty() || self.runs.iter().any(Run::busy) || self.writing.is_some()
     }
 
     /// The cell and electrode entries and the fit choices.
@@ -455,28 +461,90 @@ impl DiffusorApp {
     /// Save & export window what came of it.
     pub fn save(&mut self, kind: SaveKind, path: &Path) {
         let path = export::with_extension(path, kind.extension());
-        let result = match kind {
-            SaveKind::Export(ExportKind::Report) => self.report_html().and_then(|html| {
-                export::write_atomic(&path, html.as_bytes())
-                    .map(|()| format!("Wrote the report of {} runs to {}", self.runs.len(), path.display()))
-            }),
-            SaveKind::Export(ExportKind::DataCsv) => match self.focused() {
-                Some(run) => export::export_data_csv(run, &path).map(|()| {
-                    format!("Wrote the data of {} to {}", run.name, path.display())
-                }),
-                None => Err("no run in focus: click a run in the Runs panel first".to_owned()),
-            },
-            SaveKind::Session => self.save_session(&path).map(|skipped| {
-                let mut text = format!("Saved the session to {}", path.display());
-                if skipped > 0 {
-                    text.push_str(&format!(
-                        " ({skipped} dropped run{} without a file path left out: save such files to disk and open them by path)",
-                        if skipped == 1 { "" } else { "s" }
-                    ));
-                }
-                text
-            }),
+        if self.writing.is_some() {
+            self.files.notice = Some(Notice::Failed(
+                "still writing the last file: wait for it to finish".to_owned(),
+            ));
+            return;
+        }
+        // The report and the CSV of a long trace take seconds to write, so they are written on
+        // a thread of their own from a copy of the runs (their data are shared, not copied).
+        let job: Box<dyn FnOnce() -> Result<String, String> + Send> = match kind {
+            SaveKind::Export(ExportKind::Report) => {
+                let Ok(cell) = self.cell.form.cell() else {
+                    self.fail("the cell entries have a problem (see the Cell & electrode panel): fix them before exporting".to_owned());
+                    return;
+                };
+                let options = self
+                    .cell
+                    .choices
+                    .options(BoundChoice::Auto, BoundChoice::Auto);
+                let runs = self.runs.clone();
+                Box::new(move || {
+                    let html = export::report_html(&runs, &cell, &options)?;
+                    export::write_atomic(&path, html.as_bytes())?;
+                    Ok(format!(
+                        "Wrote the report of {} run{} to {}",
+                        runs.len(),
+                        if runs.len() == 1 { "" } else { "s" },
+                        path.display()
+                    ))
+                })
+            }
+            SaveKind::Export(ExportKind::DataCsv) => {
+                let Some(run) = self.focused().cloned() else {
+                    self.fail("no run in focus: click a run in the Runs panel first".to_owned());
+                    return;
+                };
+                Box::new(move || {
+                    export::export_data_csv(&run, &path)?;
+                    Ok(format!(
+                        "Wrote the data of {} to {}",
+                        run.name,
+                        path.display()
+                    ))
+                })
+            }
+            SaveKind::Session => {
+                let result = self.save_session(&path).map(|skipped| {
+                    let mut text = format!("Saved the session to {}", path.display());
+                    if skipped > 0 {
+                        text.push_str(&format!(
+                            " ({skipped} dropped run{} without a file path left out: save such files to disk and open them by path)",
+                            if skipped == 1 { "" } else { "s" }
+                        ));
+                    }
+                    text
+                });
+                self.finish_save(result);
+                return;
+            }
         };
+        let (tx, rx) = channel();
+        let ctx = self.ctx.clone();
+        let spawned = std::thread::Builder::new()
+            .name("diffusor-export".to_owned())
+            .spawn(move || {
+                // The window may have closed meanwhile; then nobody waits for the answer.
+                let _ = tx.send(job());
+                if let Some(ctx) = ctx {
+                    ctx.request_repaint();
+                }
+            });
+        match spawned {
+            Ok(_) => {
+                self.writing = Some(rx);
+                self.files.notice = None;
+            }
+            Err(e) => self.fail(format!("cannot start writing the file: {e}")),
+        }
+    }
+
+    fn fail(&mut self, message: String) {
+        self.finish_save(Err(message));
+    }
+
+    fn finish_save(&mut self, result: Result<String, String>) {
         self.files.notice = Some(match result {
             Ok(t) => Notice::Done(t),
             Err(e) => {
@@ -484,6 +552,21 @@ impl DiffusorApp {
                 Notice::Failed(e)
             }
         });
+    }
+
+    fn poll_writing(&mut self) {
+        let Some(rx) = &self.writing else { return };
+        match rx.try_recv() {
+            Ok(result) => {
+                self.writing = None;
+                self.finish_save(result);
+            }
+            Err(TryRecvError::Disconnected) => {
+                self.writing = None;
+                self.fail("writing the file stopped unexpectedly; try again".to_owned());
+            }
+            Err(TryRecvError::Empty) => {}
+        }
     }
 
     /// The HTML report of every run, as `diffusor report` makes it.
@@ -797,6 +880,9 @@ impl DiffusorApp {
     /// Draws the whole window inside `ui` and does what the user asked.
     pub fn ui(&mut self, ui: &mut egui::Ui) {
         let ctx = ui.ctx().clone();
+        if self.ctx.is_none() {
+            self.ctx = Some(ctx.clone());
+        }
         if !self.styled {
             apply_style(&ctx);
             apply_theme(&ctx, self.prefs.theme);
@@ -821,6 +907,8 @@ impl DiffusorApp {
             self.open_dropped(f);
         }
         self.poll_dialog();
+        self.poll_writing();
+        self.files.writing = self.writing.is_some();
         self.shortcuts(&ctx);
 
         self.top_bar_ui(ui);

@@ -97,6 +97,8 @@ pub struct FilesWindow {
     pub session_path: String,
     /// The outcome of the last save or open.
     pub notice: Option<Notice>,
+    /// A file is being written (set by the application each frame).
+    pub writing: bool,
 }
 
 impl FilesWindow {
@@ -177,6 +179,13 @@ impl FilesWindow {
             .clicked()
         {
             actions.push(FilesAction::OpenSession(PathBuf::from(typed)));
+        }
+        if self.writing {
+            ui.separator();
+            ui.horizontal(|ui| {
+                ui.spinner();
+                ui.label("Writing…");
+            });
         }
         if let Some(n) = &self.notice {
             ui.separator();

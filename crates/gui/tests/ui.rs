@@ -474,7 +474,8 @@ fn save_through_the_window(h: &mut Harness<'_, DiffusorApp>, kind: &str, path: &
     h.run();
     retype(h, "Save to", &path.display().to_string());
     h.get_by_role_and_label(Role::Button, "Save").click();
-    h.run();
+    // The report and the CSV are written on a thread of their own: wait for it.
+    settle(h);
 }
 
 fn open_session_through_the_window(h: &mut Harness<'_, DiffusorApp>, path: &std::path::Path) {
