@@ -365,6 +365,7 @@ impl DiffusorApp {
                 }
                 run.fit.latest = Some(result);
                 run.fit.latest_generation = generation;
+                run.fit.outdated = false;
             }
         }
     }
@@ -794,11 +795,12 @@ impl DiffusorApp {
             }
             if run.fit.pending.take().is_some() {
                 run.cancelled_through = run.generations;
+                run.fit.outdated = true;
                 stopped += 1;
             }
         }
-        // What the cell was last fitted with is unknown now: the next valid edit refits.
-        self.fitted_with = None;
+        // `fitted_with` is left as it is: resetting it would refit everything at the next frame
+        // and undo the cancel. The runs whose fit was stopped say that their result is older.
         self.progress = Progress::default();
         self.status = Some(format!(
             "Cancelled {stopped} step{}. Refit (Ctrl+R) to fit again.",

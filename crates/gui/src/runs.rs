@@ -234,6 +234,8 @@ pub struct FitState {
     pub latest_generation: u64,
     /// The generation of the fit being computed, if any.
     pub pending: Option<u64>,
+    /// A newer fit was cancelled: `latest` is from before the last change of entries.
+    pub outdated: bool,
 }
 
 /// A loaded run.

@@ -209,6 +209,15 @@ impl RunsPanel {
                         }
                     }
                 });
+                if run.fit.outdated {
+                    ui.horizontal_top(|ui| {
+                        ui.add_space(20.0);
+                        ui.colored_label(
+                            ui.visuals().warn_fg_color,
+                            "▲ fit cancelled: this result is from before the last change (Refit updates it)",
+                        );
+                    });
+                }
                 if let Some(n) = &run.notice {
                     ui.horizontal_top(|ui| {
                         ui.add_space(20.0);

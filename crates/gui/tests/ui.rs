@@ -766,3 +766,40 @@ fn shortcuts_step_through_runs_and_open_the_export_window() {
         diffusor_gui::files_window::SaveKind::Session
     );
 }
+
+#[test]
+fn cancelled_fits_are_not_redone_behind_the_users_back() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let generations = |h: &Harness<'_, DiffusorApp>| {
+        h.state()
+            .runs()
+            .iter()
+            .map(|r| r.fit.latest_generation)
+            .collect::<Vec<_>>()
+    };
+    let before = generations(&h);
+    // Ctrl+R queues a fit of every run; the cancel comes before any answer is looked at.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::R);
+    h.step();
+    assert!(h.state().is_busy());
+    h.state_mut().cancel_work();
+    for _ in 0..30 {
+        h.step();
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    assert!(!h.state().is_busy(), "nothing was queued again");
+    // Answers to the cancelled requests, if the worker got to them, were dropped.
+    assert_eq!(generations(&h), before);
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    assert!(
+        rep1.fit.outdated && rep1.fit_view().is_some(),
+        "the old result stays, marked"
+    );
+    let mark = "▲ fit cancelled: this result is from before the last change (Refit updates it)";
+    assert_eq!(
+        h.query_all_by_label(mark).count(),
+        h.state().runs().len(),
+        "every run says so"
+    );
+}
