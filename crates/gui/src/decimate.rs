@@ -111,17 +111,60 @@ pub fn index_range(time_s: &[f64], t_lo: f64, t_hi: f64) -> Range<usize> {
     a..b.max(a)
 }
 
-/// log2 of the smallest block of a [`Pyramid`]: 32 samples, so the levels take about 1/16 of
-/// the series' memory (two `u32` per block) and a query scans at most 62 single samples.
+/// log2 of the smallest block of a [`Pyramid`]: 32 samples, so the levels take about 3/4 of
+/// the series' memory (24 bytes per 32 samples, over all levels) and a query scans at most 62
+/// single samples.
 const BASE_SHIFT: u32 = 5;
 /// No sample in the block is finite.
 const NONE: u32 = u32::MAX;
 
-/// The indices of the lowest and highest finite sample of every aligned block of `32·2^k`
-/// samples, for each level `k`, of one series.
+/// The lowest and highest finite sample of a block: their indices and, so that a query does
+/// not jump about the series to compare them, their values.
+#[derive(Debug, Clone, Copy)]
+struct Block {
+    lo: u32,
+    hi: u32,
+    lo_v: f64,
+    hi_v: f64,
+}
+
+impl Block {
+    const EMPTY: Block = Block {
+        lo: NONE,
+        hi: NONE,
+        lo_v: f64::NAN,
+        hi_v: f64::NAN,
+    };
+
+    fn one(i: u32, v: f64) -> Block {
+        Block {
+            lo: i,
+            hi: i,
+            lo_v: v,
+            hi_v: v,
+        }
+    }
+
+    /// `self` followed by `b`: on a tie the earlier sample is kept.
+    fn merge(self, b: Block) -> Block {
+        let mut out = self;
+        if b.lo != NONE && (out.lo == NONE || b.lo_v < out.lo_v) {
+            out.lo = b.lo;
+            out.lo_v = b.lo_v;
+        }
+        if b.hi != NONE && (out.hi == NONE || b.hi_v > out.hi_v) {
+            out.hi = b.hi;
+            out.hi_v = b.hi_v;
+        }
+        out
+    }
+}
+
+/// The lowest and highest finite sample of every aligned block of `32·2^k` samples, for each
+/// level `k`, of one series.
 #[derive(Debug, Clone, Default)]
 pub struct Pyramid {
-    levels: Vec<Vec<(u32, u32)>>,
+    levels: Vec<Vec<Block>>,
     len: usize,
 }
 
@@ -129,29 +172,21 @@ impl Pyramid {
     /// The pyramid of `y`; empty (so [`Pyramid::extremes`] scans) for a series too long to
     /// index with `u32`.
     pub fn new(y: &[f64]) -> Pyramid {
-        let Ok(n) = u32::try_from(y.len()) else {
+        if u32::try_from(y.len()).is_err() {
             return Pyramid::default();
-        };
+        }
         let base = 1usize << BASE_SHIFT;
-        let mut first: Vec<(u32, u32)> = Vec::with_capacity(y.len() / base + 1);
+        let mut first: Vec<Block> = Vec::with_capacity(y.len() / base + 1);
         for (b, chunk) in y.chunks(base).enumerate() {
             let start = b * base;
-            let mut lo = NONE;
-            let mut hi = NONE;
-            for (k, v) in chunk.iter().enumerate() {
-                if !v.is_finite() {
-                    continue;
-                }
-                // In range: start + k < y.len() ≤ u32::MAX.
-                let i = (start + k) as u32;
-                if lo == NONE || *v < y[lo as usize] {
-                    lo = i;
-                }
-                if hi == NONE || *v > y[hi as usize] {
-                    hi = i;
+            let mut block = Block::EMPTY;
+            for (k, &v) in chunk.iter().enumerate() {
+                if v.is_finite() {
+                    // In range: start + k < y.len() ≤ u32::MAX, checked above.
+                    block = block.merge(Block::one((start + k) as u32, v));
                 }
             }
-            first.push((lo, hi));
+            first.push(block);
         }
         let mut levels = vec![first];
         while let Some(last) = levels.last()
@@ -159,15 +194,10 @@ impl Pyramid {
         {
             let next = last
                 .chunks(2)
-                .map(|pair| {
-                    pair.iter()
-                        .copied()
-                        .fold((NONE, NONE), |acc, b| merge(y, acc, b))
-                })
+                .map(|pair| pair.iter().fold(Block::EMPTY, |acc, b| acc.merge(*b)))
                 .collect();
             levels.push(next);
         }
-        debug_assert!(n as usize == y.len());
         Pyramid {
             levels,
             len: y.len(),
@@ -178,7 +208,7 @@ impl Pyramid {
     /// series the pyramid was built from; `None` when none is finite.
     pub fn extremes(&self, y: &[f64], range: Range<usize>) -> Option<(usize, usize)> {
         let end = range.end.min(y.len());
-        let mut acc = (NONE, NONE);
+        let mut acc = Block::EMPTY;
         let mut i = range.start;
         let usable = self.len == y.len() && !self.levels.is_empty();
         while i < end {
@@ -196,37 +226,21 @@ impl Pyramid {
             match level {
                 Some(k) => {
                     let shift = BASE_SHIFT as usize + k;
-                    acc = merge(y, acc, self.levels[k][i >> shift]);
+                    acc = acc.merge(self.levels[k][i >> shift]);
                     i += 1 << shift;
                 }
                 None => {
                     if y[i].is_finite() {
-                        // i < y.len() ≤ u32::MAX when usable; otherwise only single samples are
-                        // merged and the cast is checked.
+                        // i < y.len() ≤ u32::MAX when usable; otherwise the cast is checked.
                         let Ok(k) = u32::try_from(i) else { return None };
-                        acc = merge(y, acc, (k, k));
+                        acc = acc.merge(Block::one(k, y[i]));
                     }
                     i += 1;
                 }
             }
         }
-        (acc.0 != NONE).then_some((acc.0 as usize, acc.1 as usize))
+        (acc.lo != NONE).then_some((acc.lo as usize, acc.hi as usize))
     }
-}
-
-fn merge(y: &[f64], a: (u32, u32), b: (u32, u32)) -> (u32, u32) {
-    let pick = |p: u32, q: u32, better: fn(f64, f64) -> bool| match (p, q) {
-        (NONE, q) => q,
-        (p, NONE) => p,
-        (p, q) => {
-            if better(y[q as usize], y[p as usize]) {
-                q
-            } else {
-                p
-            }
-        }
-    };
-    (pick(a.0, b.0, |u, v| u < v), pick(a.1, b.1, |u, v| u > v))
 }
 
 /// The first index in `range` for which `pred` is false, `pred` being true then false along
