@@ -171,6 +171,7 @@ impl DiffusorApp {
                 id,
                 name: f.name.to_owned(),
                 source: Source::Bytes(f.bytes),
+                options: Box::default(),
             });
         }
     }
@@ -198,6 +199,7 @@ impl DiffusorApp {
             cancelled_through: 0,
             expected_sha256: None,
             notice: None,
+            columns: Default::default(),
         });
         if self.focus.is_none() {
             self.focus = Some(id);
@@ -214,6 +216,7 @@ impl DiffusorApp {
             id,
             name,
             source: Source::Path(path.to_path_buf()),
+            options: Box::default(),
         });
     }
 
@@ -230,6 +233,7 @@ impl DiffusorApp {
             id,
             name,
             source: Source::Dropped(file),
+            options: Box::default(),
         });
     }
 
@@ -626,6 +630,8 @@ impl DiffusorApp {
                 window_lo_s: bound(run.lo.choice),
                 window_hi_s: bound(run.hi.choice),
                 model: session::PLANAR_MODEL.to_owned(),
+                time_column: run.columns.time.trim().to_owned(),
+                current_column: run.columns.current.trim().to_owned(),
             });
         }
         let s = Session {
@@ -698,6 +704,7 @@ impl DiffusorApp {
                             id,
                             name: f.name.to_owned(),
                             source: Source::Bytes(f.bytes),
+                            options: Box::default(),
                         }),
                         None => {
                             if let Some(run) = self.run_mut(id) {
@@ -722,11 +729,19 @@ impl DiffusorApp {
                     }
                     let name = file_name(&p);
                     let id = self.add_run(name.clone(), Origin::File(p.clone()));
+                    let columns = crate::runs::ColumnFields {
+                        time: saved.time_column.clone(),
+                        current: saved.current_column.clone(),
+                    };
                     self.queue.push(Job::Import {
                         id,
                         name,
                         source: Source::Path(p),
+                        options: Box::new(columns.options()),
                     });
+                    if let Some(run) = self.run_mut(id) {
+                        run.columns = columns;
+                    }
                     id
                 }
             };
@@ -773,6 +788,37 @@ impl DiffusorApp {
     /// The Save & export window's view state.
     pub fn files_window(&self) -> &FilesWindow {
         &self.files
+    }
+
+    /// Reads run `id`'s file again with the columns named in its fields.
+    pub fn read_again(&mut self, id: RunId) {
+        let Some(run) = self.run_mut(id) else { return };
+        let source = match &run.origin {
+            Origin::Demo => crate::demo::FILES
+                .iter()
+                .find(|f| run.name == format!("{} (demo)", f.name))
+                .map(|f| Source::Bytes(f.bytes)),
+            Origin::File(p) | Origin::Dropped(p) if p.is_file() => Some(Source::Path(p.clone())),
+            Origin::File(_) | Origin::Dropped(_) => None,
+        };
+        let Some(source) = source else {
+            run.import = Import::Failed(
+                "this file came without a path on disk and cannot be read again: drop it onto the window once more"
+                    .to_owned(),
+            );
+            return;
+        };
+        run.import = Import::Loading;
+        run.fit = crate::runs::FitState::default();
+        run.selected = true;
+        let options = Box::new(run.columns.options());
+        let name = run.name.clone();
+        self.queue.push(Job::Import {
+            id,
+            name,
+            source,
+            options,
+        });
     }
 
     /// Stops the reading and fitting in progress: queued work is dropped, runs being read are
@@ -1138,6 +1184,11 @@ impl DiffusorApp {
                     Some(ResultAction::AutomaticWindow) => {
                         if let Some(id) = focus {
                             self.automatic_window(id);
+                        }
+                    }
+                    Some(ResultAction::ReadAgain) => {
+                        if let Some(id) = focus {
+                            self.read_again(id);
                         }
                     }
                     None => {}

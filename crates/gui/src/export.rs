@@ -172,6 +172,14 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
                 error: "not fitted yet (the export was made while it was being read or fitted)",
             },
         };
+        for (what, col) in [
+            ("time", &run.columns.time),
+            ("current", &run.columns.current),
+        ] {
+            if !col.trim().is_empty() {
+                notes.push(format!("{}: {what} column given: {}", run.name, col.trim()));
+            }
+        }
         if let Some(f) = run.fit_view() {
             let w = &f.result.window;
             if !(w.lo.automatic && w.hi.automatic) {

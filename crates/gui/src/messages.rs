@@ -37,12 +37,15 @@ const QUANTITIES: [Quantity; 4] = [
 fn advice(e: &ImportError) -> Option<String> {
     match e {
         ImportError::MissingColumn { quantity, .. } => Some(format!(
-            "The window cannot pick columns by hand yet: in a copy of the file, give the {} column a header that names it, such as “{}”, then open the copy (Open files…, or type its path above the list).",
+            "Name the {} column under Columns below (its position from 1, or its header) and press Read again. Or, in a copy of the file, give it a header such as “{}” and open the copy.",
             quantity.name(),
             header_example(*quantity),
         )),
         ImportError::SingleColumn { .. } | ImportError::NoTable { .. } => Some(
             "Open the file in a text editor: the window reads tables of numbers with a time and a current column, separated by commas, semicolons, tabs or spaces. Export the trace again as CSV or text if it is something else, then open that file.".to_owned(),
+        ),
+        ImportError::WrongUnit { .. } => Some(
+            "The column's header was read as naming that unit (“Kanal A” reads as amperes). In a copy of the file, give the column a header such as “t (s)” or “I (µA)” and open the copy.".to_owned(),
         ),
         ImportError::BadRows { .. } => Some(
             "Look at the line named: a stray text row or a cell the instrument wrote as text. Delete or fix such rows in a copy of the file and open the copy.".to_owned(),
@@ -136,7 +139,7 @@ mod tests {
                 "no current column found among “t”, “u” (give it a header such as “I (µA)”): x.csv"
             )
         );
-        assert!(shown.contains("then open the copy (Open files…"), "{shown}");
+        assert!(shown.contains("under Columns below"), "{shown}");
         assert!(!shown.contains("--"), "{shown}");
     }
 

@@ -21,6 +21,8 @@ pub enum ResultAction {
     WindowEdited,
     /// Back to the automatic window: refit the run.
     AutomaticWindow,
+    /// Read the file again with the columns named.
+    ReadAgain,
 }
 
 /// The "Result" panel's view state (the collapsible sections keep their own).
@@ -149,7 +151,7 @@ impl ResultPanel {
                     ui.strong("What to do");
                     wrapped(ui, RichText::new(todo));
                 }
-                return None;
+                return columns_ui(ui, &mut run.columns);
             }
             Import::Ready(_) => {}
         }
@@ -246,6 +248,36 @@ impl ResultPanel {
         }
         action
     }
+}
+
+/// Fields to name the time and current columns (a position from 1, or the header text) and a
+/// button to read the file again with them.
+fn columns_ui(ui: &mut egui::Ui, columns: &mut crate::runs::ColumnFields) -> Option<ResultAction> {
+    ui.add_space(6.0);
+    ui.strong("Columns");
+    let mut action = None;
+    egui::Grid::new("columns").num_columns(2).show(ui, |ui| {
+        for (label, text) in [
+            ("Time column", &mut columns.time),
+            ("Current column", &mut columns.current),
+        ] {
+            let l = ui.label(label);
+            ui.add(
+                egui::TextEdit::singleline(text)
+                    .desired_width(120.0)
+                    .hint_text("number or header"),
+            )
+            .labelled_by(l.id);
+            ui.end_row();
+        }
+    });
+    ui.weak(
+        "A position from 1 (1 = first column) or the column's header; empty lets Diffusor guess.",
+    );
+    if ui.button("Read again").clicked() {
+        action = Some(ResultAction::ReadAgain);
+    }
+    action
 }
 
 fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&PlanarResult>) -> Option<ResultAction> {

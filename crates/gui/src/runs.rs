@@ -238,6 +238,33 @@ pub struct FitState {
     pub outdated: bool,
 }
 
+/// The columns the user named for a file whose columns the importer could not tell apart: a
+/// position from 1 or the header text, empty to let the importer decide.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct ColumnFields {
+    /// The time column.
+    pub time: String,
+    /// The current column.
+    pub current: String,
+}
+
+impl ColumnFields {
+    /// The importer's options for these choices.
+    pub fn options(&self) -> diffusor_trace::ImportOptions {
+        let pick = |t: &str| (!t.trim().is_empty()).then(|| diffusor_trace::ColumnChoice::parse(t));
+        diffusor_trace::ImportOptions {
+            time_column: pick(&self.time),
+            current_column: pick(&self.current),
+            ..Default::default()
+        }
+    }
+
+    /// Whether any column was named.
+    pub fn any(&self) -> bool {
+        !(self.time.trim().is_empty() && self.current.trim().is_empty())
+    }
+}
+
 /// A loaded run.
 #[derive(Debug, Clone)]
 pub struct Run {
@@ -267,6 +294,8 @@ pub struct Run {
     pub expected_sha256: Option<String>,
     /// A warning about the run that is not the fit's (a changed file, an unknown model).
     pub notice: Option<String>,
+    /// The columns named for the import.
+    pub columns: ColumnFields,
 }
 
 impl Run {

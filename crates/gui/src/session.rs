@@ -74,6 +74,13 @@ pub struct SessionRun {
     pub window_hi_s: SavedBound,
     /// The model fitted.
     pub model: String,
+    /// The time column named for the import (a position from 1 or header text; empty: the
+    /// importer's choice).
+    #[serde(default)]
+    pub time_column: String,
+    /// The current column named for the import, likewise.
+    #[serde(default)]
+    pub current_column: String,
 }
 
 /// A quantity as typed.
@@ -336,6 +343,8 @@ mod tests {
                 window_lo_s: Some(0.01),
                 window_hi_s: None,
                 model: PLANAR_MODEL.to_owned(),
+                time_column: "1".to_owned(),
+                current_column: String::new(),
             }],
             focus: Some(0),
         }

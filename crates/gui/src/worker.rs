@@ -47,6 +47,8 @@ pub enum Job {
         name: String,
         /// Its bytes.
         source: Source,
+        /// The importer's choices (columns picked by the user), default otherwise.
+        options: Box<ImportOptions>,
     },
     /// Fit a run.
     Fit {
@@ -196,8 +198,12 @@ fn read_file(path: &std::path::Path) -> Result<(String, std::borrow::Cow<'static
 
 fn run_job(job: Job) -> Outcome {
     match job {
-        Job::Import { id, name, source } => {
-            let options = ImportOptions::default();
+        Job::Import {
+            id,
+            name,
+            source,
+            options,
+        } => {
             // The bytes are read here rather than by the importer so that their SHA-256 (which
             // a saved session compares) is of exactly what was fitted.
             let read = match source {

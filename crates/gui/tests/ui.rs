@@ -803,3 +803,35 @@ fn cancelled_fits_are_not_redone_behind_the_users_back() {
         "every run says so"
     );
 }
+
+#[test]
+fn columns_named_in_the_window_read_a_file_the_importer_could_not() {
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("swapped.txt");
+    // Headers swapped against the data (a hand-edited export): the column called "time" holds
+    // the current, decreasing, so the importer refuses the file as out of time order.
+    let mut text = String::from("current;time\n");
+    for k in -200..5000_i32 {
+        let t = f64::from(k) * 1e-3;
+        let i = if k <= 0 { 0.0 } else { 1e-5 / t.sqrt() };
+        text.push_str(&format!("{t:.4};{i:.6e}\n").replace('.', ","));
+    }
+    std::fs::write(&path, text).expect("written");
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&path)));
+    settle(&mut h);
+    let e = run_named(&h, "swapped.txt")
+        .error()
+        .expect("unreadable")
+        .to_owned();
+    assert!(!e.contains("--"), "no command-line flag in the window: {e}");
+    retype(&mut h, "Time column", "1");
+    retype(&mut h, "Current column", "2");
+    h.get_by_label("Read again").click();
+    settle(&mut h);
+    let run = run_named(&h, "swapped.txt");
+    assert!(run.fit_view().is_some(), "{:?}", run.error());
+    // The session records the columns, so the file reopens the same way.
+    let (session, _) = h.state().session();
+    assert_eq!(session.runs[0].time_column, "1");
+    assert_eq!(session.runs[0].current_column, "2");
+}
