@@ -3,6 +3,7 @@
 mod compare;
 mod fit;
 mod inspect;
+mod readme;
 mod report;
 
 use std::path::{Path, PathBuf};

@@ -5,7 +5,7 @@ use std::fmt::Write as _;
 use std::process::ExitCode;
 
 use diffusor_fit::replicates::{GrubbsOutcome, ReplicateSummary, RunEstimate, summarize};
-use serde_json::json;
+use diffusor_report::json::replicates_json;
 
 use crate::fit::{self, Run};
 
@@ -62,17 +62,15 @@ pub fn run(args: &fit::Args) -> anyhow::Result<ExitCode> {
     let ests = estimates(&runs, &t);
     let summary = summarize(&ests);
     if args.json_output() {
-        let replicates = match &summary {
-            Ok(s) => json!({"quantity": t.name, "unit": t.unit, "summary": s}),
-            Err(e) => json!({"quantity": t.name, "unit": t.unit, "error": e.to_string()}),
-        };
-        let doc = json!({
-            "schema": "diffusor.fit/1",
-            "version": env!("CARGO_PKG_VERSION"),
-            "runs": runs.iter().map(|r| fit::run_json(r, &cell)).collect::<Vec<_>>(),
-            "replicates": replicates,
-        });
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        let error = summary.as_ref().err().map(ToString::to_string);
+        let replicates = replicates_json(
+            t.name,
+            t.unit,
+            summary
+                .as_ref()
+                .map_err(|_| error.as_deref().unwrap_or_default()),
+        );
+        println!("{}", fit::document_text(&runs, &cell, Some(replicates)));
     } else {
         let mut out = String::new();
         let width = runs

@@ -10,9 +10,10 @@ use anyhow::{Context, bail};
 use diffusor_fit::cell::{Cell, Geometry};
 use diffusor_fit::planar::{Background, PlanarOptions, PlanarResult, analyze};
 use diffusor_fit::window::BoundChoice;
+use diffusor_report::json::{self, RunRecord};
 use diffusor_trace::{format_si, import_path};
 use rayon::prelude::*;
-use serde_json::{Value, json};
+use serde_json::Value;
 use sha2::{Digest, Sha256};
 
 use crate::import_args::ImportArgs;
@@ -213,83 +214,21 @@ pub fn fit_all(
     runs
 }
 
-fn estimate_json(e: Option<diffusor_fit::planar::Estimate>, scale: f64) -> Value {
-    match e {
-        Some(e) => json!({
-            "value": e.value * scale,
-            "std_error": e.std_error * scale,
-            "ci95": [e.ci95[0] * scale, e.ci95[1] * scale],
-        }),
-        None => Value::Null,
+impl Run {
+    /// The run as the results document needs it.
+    pub fn record(&self) -> RunRecord<'_> {
+        RunRecord {
+            file: &self.file,
+            sha256: self.sha256.as_deref(),
+            result: self.result.as_ref().map_err(String::as_str),
+        }
     }
 }
 
-/// One run as `diffusor.fit/1` JSON.
-pub fn run_json(run: &Run, cell: &Cell) -> Value {
-    match &run.result {
-        Err(e) => json!({
-            "file": run.file, "sha256": run.sha256, "ok": false, "error": e,
-            "model": Value::Null, "geometry": cell.geometry.name(), "t0_s": Value::Null,
-            "window_s": Value::Null, "window_reason": Value::Null, "points": 0,
-            "D_cm2_s": Value::Null, "C_mM": Value::Null, "nAC_mol_cm": Value::Null,
-            "area_cm2": Value::Null, "params": {}, "diagnostics": Value::Null, "warnings": [],
-        }),
-        Ok(r) => {
-            let params: serde_json::Map<String, Value> = r
-                .params
-                .iter()
-                .map(|p| {
-                    (
-                        p.symbol.to_owned(),
-                        json!({
-                            "name": p.name, "unit": p.unit, "value": p.estimate.value,
-                            "std_error": p.estimate.std_error, "ci95": p.estimate.ci95,
-                        }),
-                    )
-                })
-                .collect();
-            let conc = cell.conc_mol_m3.map(|c| {
-                json!({"value": c.value, "std_error": c.u, "ci95": Value::Null, "entered": true})
-            });
-            json!({
-                "file": run.file,
-                "sha256": run.sha256,
-                "ok": true,
-                "error": Value::Null,
-                "model": r.model,
-                "geometry": r.geometry.name(),
-                "mode": r.mode,
-                "t0_s": r.t0.value,
-                "window_s": [r.window.lo.time_s, r.window.hi.time_s],
-                "window_reason": {"lo": r.window.lo.description, "hi": r.window.hi.description},
-                "window_automatic": {"lo": r.window.lo.automatic, "hi": r.window.hi.automatic},
-                "points": r.window.points,
-                "D_cm2_s": estimate_json(r.diffusion_m2_s, 1e4),
-                "C_mM": conc.unwrap_or(Value::Null),
-                // mol/m → mol/cm: ×10⁻².
-                "nAC_mol_cm": estimate_json(r.nac_mol_m, 1e-2),
-                "area_cm2": estimate_json(r.area_m2, 1e4),
-                "params": params,
-                "budget": r.budget,
-                "charging": r.charging,
-                "diagnostics": {
-                    "r2": r.diagnostics.r2,
-                    "residual_sd_A": r.diagnostics.residual_sd_a,
-                    "durbin_watson": r.diagnostics.durbin_watson,
-                    "lag1_autocorrelation": r.diagnostics.lag1_autocorrelation,
-                    "runs_z": r.diagnostics.runs_z,
-                    "effective_points": r.diagnostics.effective_points,
-                    "degrees_of_freedom": r.diagnostics.degrees_of_freedom,
-                    "se_inflation": r.diagnostics.se_inflation,
-                    "autocorrelation_method": r.diagnostics.autocorrelation_method,
-                    "weighting": r.diagnostics.weighting,
-                    "background": r.background,
-                    "convection_onset_s": r.plateau.rises_from_s,
-                },
-                "warnings": r.warnings.iter().map(|w| w.message.clone()).collect::<Vec<_>>(),
-            })
-        }
-    }
+/// The runs as `diffusor.fit/1` text, with `replicates` when they were compared.
+pub fn document_text(runs: &[Run], cell: &Cell, replicates: Option<Value>) -> String {
+    let records: Vec<RunRecord<'_>> = runs.iter().map(Run::record).collect();
+    json::document_text(env!("CARGO_PKG_VERSION"), &records, cell, replicates)
 }
 
 fn sci(v: f64, digits: usize) -> String {
@@ -301,13 +240,7 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
     let options = args.options()?;
     let runs = fit_all(&args.files, &args.import, &cell, &options);
     if args.json {
-        let doc = json!({
-            "schema": "diffusor.fit/1",
-            "version": env!("CARGO_PKG_VERSION"),
-            "runs": runs.iter().map(|r| run_json(r, &cell)).collect::<Vec<_>>(),
-            "replicates": Value::Null,
-        });
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        println!("{}", document_text(&runs, &cell, None));
     } else if args.csv {
         let mut out = String::from(
             "file,ok,D_cm2_s,D_std_error,D_ci95_lo,D_ci95_hi,nAC_mol_cm,area_cm2,window_lo_s,window_hi_s,points,t0_s,r2,residual_sd_A,error\n",

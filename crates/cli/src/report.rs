@@ -6,10 +6,10 @@ use std::process::ExitCode;
 use std::time::{SystemTime, UNIX_EPOCH};
 
 use anyhow::{Context, bail};
+use diffusor_report::json::replicates_json;
 use diffusor_report::{Outcome, ReportInput, RunInput, render, replicates};
 use diffusor_trace::{ImportOptions, OnsetChoice, Trace, import_bytes};
 use rayon::prelude::*;
-use serde_json::{Value, json};
 use sha2::{Digest, Sha256};
 
 use crate::fit::{self, Run};
@@ -150,20 +150,14 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
         .count();
 
     // The same document `compare --json` prints, embedded for whoever wants the numbers.
-    let replicates_json = match replicates(&inputs) {
-        None => Value::Null,
-        Some(rep) => match &rep.summary {
-            Ok(s) => json!({"quantity": rep.quantity, "unit": rep.unit, "summary": s}),
-            Err(e) => json!({"quantity": rep.quantity, "unit": rep.unit, "error": e}),
-        },
-    };
-    let results = json!({
-        "schema": "diffusor.fit/1",
-        "version": env!("CARGO_PKG_VERSION"),
-        "runs": runs.iter().map(|r| fit::run_json(r, &cell)).collect::<Vec<_>>(),
-        "replicates": replicates_json,
+    let replicates = replicates(&inputs).map(|rep| {
+        replicates_json(
+            rep.quantity,
+            rep.unit,
+            rep.summary.as_ref().map_err(String::as_str),
+        )
     });
-    let results = serde_json::to_string_pretty(&results)?;
+    let results = fit::document_text(&runs, &cell, replicates);
     let now = SystemTime::now()
         .duration_since(UNIX_EPOCH)
         .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));

@@ -238,6 +238,71 @@ pub fn sandwich_covariance(
     Some(&inv * middle * &inv * s2)
 }
 
+/// [`sandwich_covariance`] for a long Jacobian given row by row (`row(i)` is row i, rows in
+/// time order), without building it: the sums run in parallel chunks, each carrying its
+/// AR(1) recursion into the next exactly as one sequential pass would. The exact reference for
+/// the block-summed onset covariance of the planar analysis.
+#[cfg(test)]
+pub(crate) fn streamed_sandwich<const P: usize>(
+    n: usize,
+    row: impl Fn(usize) -> [f64; P] + Sync,
+    s2: f64,
+    noise: NoiseModel,
+) -> Option<nalgebra::DMatrix<f64>> {
+    let phi = if noise.c > 0.0 { noise.phi } else { 0.0 };
+    // Per chunk: Σ zzᵀ, the AR(1) middle with h starting at zero, G = Σ zᵢ φ^(i−a), the h
+    // handed on, and φ^len.
+    type Part<const P: usize> = ([[f64; P]; P], [[f64; P]; P], [f64; P], [f64; P], f64);
+    let parts: Vec<Part<P>> = chunked(n, |a, b| {
+        let mut jtj = [[0.0; P]; P];
+        let mut m = [[0.0; P]; P];
+        let mut h = [0.0; P];
+        let mut g = [0.0; P];
+        let mut prev = [0.0; P];
+        let mut decay = 1.0;
+        for i in a..b {
+            let z = row(i);
+            if i > a {
+                for c in 0..P {
+                    h[c] = phi * (h[c] + prev[c]);
+                }
+            }
+            for r in 0..P {
+                for c in 0..P {
+                    jtj[r][c] += z[r] * z[c];
+                    m[r][c] += z[r] * h[c] + h[r] * z[c];
+                }
+                g[r] += z[r] * decay;
+            }
+            decay *= phi;
+            prev = z;
+        }
+        let mut h_end = [0.0; P];
+        for c in 0..P {
+            h_end[c] = phi * (h[c] + prev[c]);
+        }
+        (jtj, m, g, h_end, decay)
+    });
+    let mut jtj = nalgebra::DMatrix::<f64>::zeros(P, P);
+    let mut m = nalgebra::DMatrix::<f64>::zeros(P, P);
+    let mut carry = [0.0; P];
+    for (pj, pm, g, h_end, pow_len) in &parts {
+        for r in 0..P {
+            for c in 0..P {
+                jtj[(r, c)] += pj[r][c];
+                // A carried-in h adds G·carryᵀ + carry·Gᵀ.
+                m[(r, c)] += pm[r][c] + g[r] * carry[c] + carry[r] * g[c];
+            }
+        }
+        for c in 0..P {
+            carry[c] = carry[c] * pow_len + h_end[c];
+        }
+    }
+    let inv = jtj.clone().try_inverse()?;
+    let middle = &jtj + m * noise.c;
+    Some(&inv * middle * &inv * s2)
+}
+
 /// Lags of the residual autocorrelation used for the noise model.
 const LAGS: usize = 10;
 /// Residuals per thread used for the autocorrelation.

@@ -5,9 +5,8 @@
 use nalgebra::DVector;
 use serde::Serialize;
 
-use crate::models::planar::CottrellCharging;
 use crate::regression::NoiseModel;
-use crate::solver::{SolveOptions, solve};
+use crate::solver::{LeastSquaresProblem, SolveOptions, solve};
 
 /// A bound chosen automatically or given.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Default)]
@@ -83,6 +82,13 @@ pub enum BoundReason {
         /// The fraction.
         fraction: f64,
     },
+    /// Where the fitted charging current falls below a tenth of the noise of the current: on a
+    /// quiet trace a remnant of 0.1 % of the faradaic current is many noise standard deviations
+    /// and biases D beyond its own interval.
+    ChargingBelowNoise {
+        /// The noise standard deviation in A.
+        noise_sd_a: f64,
+    },
     /// After the leading points whose excess over the Cottrell line is significant (τ itself
     /// could not be estimated, usually because it is shorter than the sampling interval).
     ChargingExcess {
@@ -138,6 +144,10 @@ impl BoundReason {
             BoundReason::ChargingFraction { fraction } => format!(
                 "where the fitted charging current falls below {} % of the faradaic current",
                 fraction * 100.0
+            ),
+            BoundReason::ChargingBelowNoise { noise_sd_a } => format!(
+                "where the fitted charging current falls below a tenth of the noise of the current (σ = {})",
+                diffusor_trace::format_si(*noise_sd_a, "A", 2)
             ),
             BoundReason::ChargingExcess {
                 points,
@@ -214,58 +224,186 @@ pub struct Charging {
     pub points: usize,
 }
 
-/// Fits exponential plus Cottrell to the first points; `None` when τ is not resolved (the
-/// amplitude or τ not significant at 3 standard errors, the charging current at the second
-/// sample below 3 noise standard deviations, or the fit fails).
+/// Fits Cottrell with a free onset plus the charging current,
+/// `I = S·(t − t0)^-½ + b + A·exp(−t/τ)`, to the first `early` points together with the
+/// provisional span `span` (at most 2000 of its points, strided), which anchors S and b; past
+/// 400 early points, the first 100 and 300 log-spaced ones stand for them.
+///
+/// t0 is fitted with the charging term because the two are confounded at short times: an
+/// onset a fraction of a sample off leaves an early excess (or deficit) that an exponential
+/// fitted alone mistakes for charging, and a charging tail pulls an onset fitted alone. The
+/// start comes from linear least squares in (S, b, A) on a grid of τ; Levenberg–Marquardt
+/// polishes it. Returns the charging, t0 (s, relative to the given times) and the residual
+/// standard deviation (A; the noise with the charging modelled, which a line fitted past a
+/// charging tail overstates), or `None` when τ
+/// is not resolved: the amplitude or τ not significant at 3 standard errors, τ beyond the
+/// early points, the charging current at the second sample below 3 noise standard deviations,
+/// a t0 after the first sample, or a failed fit.
 pub(crate) fn estimate_charging(
     time_s: &[f64],
     current_a: &[f64],
-    slope: f64,
-    intercept: f64,
+    early: usize,
+    span: (usize, usize),
+    fit_intercept: bool,
     noise_sd_a: f64,
-) -> Option<Charging> {
-    let n = time_s.len();
-    if n < 6 {
+) -> Option<(Charging, f64, f64)> {
+    let early = early.min(time_s.len());
+    if early < 6 {
         return None;
     }
-    // Excess over the provisional Cottrell line; the charging shows as a positive, decaying one.
-    let excess: Vec<f64> = time_s
-        .iter()
-        .zip(current_a)
-        .map(|(t, y)| y - slope / t.sqrt() - intercept)
+    let (pa, pb) = (span.0.max(early), span.1.min(time_s.len()));
+    let stride = (pb.saturating_sub(pa) / 2000).max(1);
+    // The early points: all of the first 400, beyond that the first 100 and 300 log-spaced.
+    let early_rows: Vec<usize> = if early <= 400 {
+        (0..early).collect()
+    } else {
+        let ratio = (early as f64 / 100.0).ln() / 300.0;
+        let mut v: Vec<usize> = (0..100)
+            .chain((0..300).map(|k| (100.0 * (ratio * f64::from(k)).exp()) as usize))
+            .filter(|&i| i < early)
+            .collect();
+        v.dedup();
+        v
+    };
+    let rows: Vec<usize> = early_rows
+        .into_iter()
+        .chain((pa..pb).step_by(stride))
         .collect();
-    if !(excess[0] > 0.0 && excess[1] > 0.0 && excess[0] > excess[1]) {
-        return None;
+    let t: Vec<f64> = rows.iter().map(|&i| time_s[i]).collect();
+    let y: Vec<f64> = rows.iter().map(|&i| current_a[i]).collect();
+    let t_early_end = time_s[early - 1];
+    // Start: the best τ of a log grid, with S, b and A linear in it.
+    let mut best: Option<(f64, f64, [f64; 3])> = None;
+    let (g_lo, g_hi) = ((0.3 * time_s[0]).ln(), t_early_end.ln());
+    let cols = if fit_intercept { 3 } else { 2 };
+    for k in 0..=30 {
+        let tau = (g_lo + (g_hi - g_lo) * f64::from(k) / 30.0).exp();
+        let x = nalgebra::DMatrix::from_fn(t.len(), cols, |i, j| match (j, fit_intercept) {
+            (0, _) => 1.0 / t[i].sqrt(),
+            (1, true) => 1.0,
+            _ => (-t[i] / tau).exp(),
+        });
+        let qr = x.clone().qr();
+        let qty = qr.q().transpose() * DVector::from_column_slice(&y);
+        let Some(c) = qr.r().solve_upper_triangular(&qty) else {
+            continue;
+        };
+        let fitted = &x * &c;
+        let rss: f64 = y
+            .iter()
+            .zip(fitted.iter())
+            .map(|(a, b)| (a - b).powi(2))
+            .sum();
+        let (s0, b0, a0) = if fit_intercept {
+            (c[0], c[1], c[2])
+        } else {
+            (c[0], 0.0, c[1])
+        };
+        if a0 > 0.0 && best.is_none_or(|b| rss < b.0) {
+            best = Some((rss, tau, [s0, b0, a0]));
+        }
     }
-    let tau0 = ((time_s[1] - time_s[0]) / (excess[0] / excess[1]).ln()).max(1e-9);
-    let a0 = excess[0] * (time_s[0] / tau0).exp().min(1e12);
-    let p0 = DVector::from_vec(vec![slope, intercept, a0.ln(), tau0.ln()]);
-    let problem = CottrellCharging { time_s, current_a };
-    let fit = solve(&problem, p0, &SolveOptions::default()).ok()?;
-    let (ln_a, ln_tau) = (fit.parameters[2], fit.parameters[3]);
-    let (se_ln_a, se_ln_tau) = (fit.standard_errors[2], fit.standard_errors[3]);
+    let (_, tau0, [s0, b0, a0]) = best?;
+    let mut p0 = vec![s0];
+    if fit_intercept {
+        p0.push(b0);
+    }
+    p0.extend([0.0, a0.ln(), tau0.ln()]);
+    let problem = ShiftedCottrellCharging {
+        time_s: &t,
+        current_a: &y,
+        intercept: fit_intercept,
+    };
+    let fit = solve(&problem, DVector::from_vec(p0), &SolveOptions::default()).ok()?;
+    let q = fit.parameters.len();
+    let (t0, ln_a, ln_tau) = (
+        fit.parameters[q - 3],
+        fit.parameters[q - 2],
+        fit.parameters[q - 1],
+    );
+    let (se_ln_a, se_ln_tau) = (fit.standard_errors[q - 2], fit.standard_errors[q - 1]);
     // Significant at 3 standard errors: on the log scale, a relative error below 1/3.
     if !(se_ln_a < 1.0 / 3.0 && se_ln_tau < 1.0 / 3.0) {
         return None;
     }
     let tau = ln_tau.exp();
-    // τ must lie inside the data, not beyond them, or it is an artefact of the fit.
-    if !(tau > 0.0 && tau < time_s[n - 1]) {
+    // τ must lie inside the early points, not beyond them, or it is an artefact of the fit;
+    // and the onset cannot come after the first sample.
+    if !(tau > 0.0 && tau < t_early_end && t0 < time_s[0]) {
         return None;
     }
-    // And the charging current must stand above the noise at the second sample too: an
-    // exponential that only touches the first point fits that point's noise, not a τ (seen on
-    // pure Cottrell data).
+    // The charging current must stand above the noise at the second sample too: an
+    // exponential that only touches the first point fits that point's noise, not a τ.
     if !(ln_a.exp() * (-time_s[1] / tau).exp() > 3.0 * noise_sd_a) {
         return None;
     }
-    Some(Charging {
-        tau_s: tau,
-        tau_std_error_s: Some(tau * se_ln_tau),
-        amplitude_a: Some(ln_a.exp()),
-        fitted: true,
-        points: n,
-    })
+    Some((
+        Charging {
+            tau_s: tau,
+            tau_std_error_s: Some(tau * se_ln_tau),
+            amplitude_a: Some(ln_a.exp()),
+            fitted: true,
+            points: rows.len(),
+        },
+        t0,
+        fit.residual_standard_deviation,
+    ))
+}
+
+/// Cottrell with a free onset plus the charging current, `I = S·(t − t0)^-½ + b + A·e^(−t/τ)`,
+/// parameters `[S, b, t0, ln A, ln τ]` (b dropped without an intercept); the charging decays
+/// from the nominal onset, where the potential stepped.
+struct ShiftedCottrellCharging<'a> {
+    time_s: &'a [f64],
+    current_a: &'a [f64],
+    intercept: bool,
+}
+
+impl ShiftedCottrellCharging<'_> {
+    fn unpack(&self, p: &DVector<f64>) -> (f64, f64, f64, f64, f64) {
+        if self.intercept {
+            (p[0], p[1], p[2], p[3].exp(), p[4].exp())
+        } else {
+            (p[0], 0.0, p[1], p[2].exp(), p[3].exp())
+        }
+    }
+}
+
+impl LeastSquaresProblem for ShiftedCottrellCharging<'_> {
+    fn residuals(&self, p: &DVector<f64>) -> DVector<f64> {
+        let (s, b, t0, a, tau) = self.unpack(p);
+        DVector::from_iterator(
+            self.time_s.len(),
+            self.time_s.iter().zip(self.current_a).map(|(&t, &y)| {
+                let dt = t - t0;
+                if dt > 0.0 {
+                    y - s / dt.sqrt() - b - a * (-t / tau).exp()
+                } else {
+                    f64::NAN
+                }
+            }),
+        )
+    }
+
+    fn jacobian(&self, p: &DVector<f64>) -> nalgebra::DMatrix<f64> {
+        let (s, _, t0, a, tau) = self.unpack(p);
+        let cols = if self.intercept { 5 } else { 4 };
+        nalgebra::DMatrix::from_fn(self.time_s.len(), cols, |i, j| {
+            let t = self.time_s[i];
+            let dt = t - t0;
+            let e = a * (-t / tau).exp();
+            let j = if self.intercept || j == 0 { j } else { j + 1 };
+            match j {
+                0 => -1.0 / dt.sqrt(),
+                1 => -1.0,
+                // ∂/∂t0 of −S·(t − t0)^-½ is −S/2·(t − t0)^-3/2.
+                2 => -0.5 * s / (dt * dt.sqrt()),
+                // ∂(A e^(−t/τ))/∂ln A = A e^(−t/τ); ∂/∂ln τ = A e^(−t/τ)·t/τ.
+                3 => -e,
+                _ => -e * t / tau,
+            }
+        })
+    }
 }
 
 /// The smallest t ≥ τ/2 after which A·e^(−t/τ) < f·S·t^-½ (the ratio decreases for t > τ/2).
@@ -325,8 +463,22 @@ pub(crate) fn plateau_check(
     noise_sd_a: f64,
     noise: NoiseModel,
     z_limit: f64,
+    charging: Option<(f64, f64)>,
 ) -> PlateauCheck {
     let tt = |m: usize| time_s[m] - t0;
+    // The fitted charging tail, A·e^(−t/τ), comes off the current: a remnant of 0.1 % of the
+    // faradaic current is many standard errors of a bin mean on a quiet trace, and would read
+    // as a departure from the plateau. Past 50 τ it is below 10⁻²¹ of A and is skipped.
+    let (amp, tau) = charging.unwrap_or((0.0, 0.0));
+    let tail_end = 50.0 * tau;
+    let faradaic = |m: usize| {
+        let t = time_s[m];
+        if t < tail_end {
+            current_a[m] - amp * (-t / tau).exp()
+        } else {
+            current_a[m]
+        }
+    };
     let start = time_s.partition_point(|&t| t < t_from);
     let per_decade = 10.0;
     let n = time_s.len();
@@ -352,7 +504,7 @@ pub(crate) fn plateau_check(
             while m >= edges[k + 1] {
                 k += 1;
             }
-            sums[k] += current_a[m] * tt(m).sqrt();
+            sums[k] += faradaic(m) * tt(m).sqrt();
         }
         sums
     });
@@ -513,4 +665,95 @@ pub(crate) fn range_switches(time_s: &[f64], residual: &(dyn Fn(usize) -> f64 + 
         out
     });
     found.into_iter().flatten().collect()
+}
+
+/// Where the provisional Cottrell line is fitted: the longest stretch over which I·√t stays
+/// flat, judged on log-time bins (ten per decade) from at most 256 sampled points each.
+///
+/// Neighbouring bins count as flat when their I·√t differ by less than 1.15 % (a local power
+/// law t^(−½ ± 0.05), our own tolerance) plus three standard errors of the difference, the
+/// noise read from successive differences of the current. The stretch returned starts one bin
+/// after the flat run begins (away from the charging tail) and spans at most two decades (away
+/// from a slow convection rise). A fixed share of the log-time span would sit inside the
+/// charging current whenever the sampling is fast against τ = Ru·Cdl, and a provisional line
+/// fitted there throws off every later rule.
+///
+/// Returns the index range `(a, b)`, or `None` when no run of at least three flat bins exists.
+pub(crate) fn provisional_span(time_s: &[f64], current_a: &[f64]) -> Option<(usize, usize)> {
+    const PER_BIN: usize = 256;
+    let n = time_s.len();
+    if n < 40 || !(time_s[0] > 0.0) {
+        return None;
+    }
+    let step = 10f64.powf(0.1);
+    // (start index, end index, ln of mean I·√t, its standard error relative to the mean)
+    let mut bins: Vec<(usize, usize, f64, f64)> = Vec::new();
+    let mut i = 0;
+    while i < n {
+        let edge = time_s[i] * step;
+        let mut j = time_s[i..].partition_point(|&t| t < edge) + i;
+        j = j.max(i + 8).min(n);
+        if n - j < 8 {
+            j = n;
+        }
+        let m = j - i;
+        let stride = m.div_ceil(PER_BIN).max(1);
+        let (mut sum, mut count, mut diff2, mut pairs) = (0.0, 0usize, 0.0, 0usize);
+        let mut k = i;
+        while k < j {
+            sum += current_a[k] * time_s[k].sqrt();
+            count += 1;
+            if k + 1 < j {
+                let d = current_a[k + 1] - current_a[k];
+                diff2 += d * d;
+                pairs += 1;
+            }
+            k += stride;
+        }
+        let mean = sum / count as f64;
+        if mean > 0.0 {
+            let sd = if pairs > 0 {
+                (diff2 / (2.0 * pairs as f64)).sqrt()
+            } else {
+                0.0
+            };
+            let t_mid = (time_s[i] * time_s[j - 1]).sqrt();
+            let se = sd * t_mid.sqrt() / (count as f64).sqrt() / mean;
+            bins.push((i, j, mean.ln(), se));
+        } else {
+            // A current of the wrong sign or zero has no Cottrell stretch here.
+            bins.push((i, j, f64::NAN, f64::INFINITY));
+        }
+        i = j;
+    }
+    let flat = |k: usize| -> bool {
+        let (a, b) = (bins[k], bins[k + 1]);
+        let diff = (b.2 - a.2).abs();
+        diff.is_finite() && diff < 0.0115 + 3.0 * (a.3 * a.3 + b.3 * b.3).sqrt()
+    };
+    // Longest run of bins joined by flat steps, by log-time span; the earliest wins a tie.
+    let span = |(f, l): (usize, usize)| time_s[bins[l].1 - 1] / time_s[bins[f].0];
+    let mut best: Option<(usize, usize)> = None;
+    let mut k = 0;
+    while k + 1 < bins.len() {
+        if !flat(k) {
+            k += 1;
+            continue;
+        }
+        let first = k;
+        while k + 1 < bins.len() && flat(k) {
+            k += 1;
+        }
+        if best.is_none_or(|b| span((first, k)) > span(b)) {
+            best = Some((first, k));
+        }
+    }
+    let (first, last) = best?;
+    if last - first < 2 {
+        return None;
+    }
+    let a = bins[first + 1].0;
+    let t_end = time_s[a] * 100.0;
+    let b = bins[last].1.min(time_s.partition_point(|&t| t <= t_end));
+    (b > a + 10).then_some((a, b))
 }

@@ -15,6 +15,7 @@ fn before_label(reason: &BoundReason) -> Option<&'static str> {
     match reason {
         BoundReason::ChargingTime { .. }
         | BoundReason::ChargingFraction { .. }
+        | BoundReason::ChargingBelowNoise { .. }
         | BoundReason::ChargingExcess { .. } => Some("charging"),
         BoundReason::RiseTime { .. } => Some("rise time"),
         BoundReason::Given => Some("excluded"),

@@ -11,7 +11,8 @@
 //! there is no script. Every piece of text that comes from the user or a file (file names,
 //! preamble lines, column headers, warnings) is escaped by the templating (maud), never pasted
 //! into markup. [`replicates`] is the replicate comparison the page shows, for callers that
-//! also want it as data.
+//! also want it as data; [`json`] builds the versioned results document (`diffusor.fit/1`)
+//! that the command line prints and the page embeds.
 //!
 //! ```
 //! use diffusor_fit::cell::{Cell, Measured};
@@ -61,6 +62,7 @@ mod decimate;
 mod figures;
 mod fmt;
 mod html;
+pub mod json;
 mod svg;
 mod ticks;
 
