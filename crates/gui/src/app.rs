@@ -496,6 +496,23 @@ impl DiffusorApp {
                     ))
                 })
             }
+            SaveKind::Export(ExportKind::ResultsJson) => {
+                let Ok(cell) = self.cell.form.cell() else {
+                    self.fail("the cell entries have a problem (see the Cell & electrode panel): fix them before exporting".to_owned());
+                    return;
+                };
+                let runs = self.runs.clone();
+                Box::new(move || {
+                    let text = export::results_json(&runs, &cell)?;
+                    export::write_atomic(&path, text.as_bytes())?;
+                    Ok(format!(
+                        "Wrote the results of {} run{} to {}",
+                        runs.len(),
+                        if runs.len() == 1 { "" } else { "s" },
+                        path.display()
+                    ))
+                })
+            }
             SaveKind::Export(ExportKind::DataCsv) => {
                 let Some(run) = self.focused().cloned() else {
                     self.fail("no run in focus: click a run in the Runs panel first".to_owned());

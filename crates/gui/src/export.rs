@@ -8,7 +8,8 @@ use std::time::{SystemTime, UNIX_EPOCH};
 
 use diffusor_fit::cell::Cell;
 use diffusor_fit::planar::PlanarOptions;
-use diffusor_report::{Outcome, ReportInput, RunInput, render};
+use diffusor_report::json::{RunRecord, document_text, replicates_json};
+use diffusor_report::{Outcome, ReportInput, RunInput, render, replicates};
 
 use crate::runs::{FitView, Run, RunData};
 
@@ -20,17 +21,24 @@ pub enum ExportKind {
     Report,
     /// The run in focus: time, current, fitted current, residual and window flag.
     DataCsv,
+    /// The results of every run as the `diffusor.fit/1` document.
+    ResultsJson,
 }
 
 impl ExportKind {
     /// Every kind, in the order the export window lists them.
-    pub const ALL: [ExportKind; 2] = [ExportKind::Report, ExportKind::DataCsv];
+    pub const ALL: [ExportKind; 3] = [
+        ExportKind::Report,
+        ExportKind::ResultsJson,
+        ExportKind::DataCsv,
+    ];
 
     /// Its name in the export window.
     pub fn label(self) -> &'static str {
         match self {
             ExportKind::Report => "Report (HTML, every run)",
             ExportKind::DataCsv => "Data of the run in focus (CSV)",
+            ExportKind::ResultsJson => "Results (JSON, diffusor.fit/1, every run)",
         }
     }
 
@@ -39,6 +47,7 @@ impl ExportKind {
         match self {
             ExportKind::Report => "html",
             ExportKind::DataCsv => "csv",
+            ExportKind::ResultsJson => "json",
         }
     }
 
@@ -47,6 +56,7 @@ impl ExportKind {
         match self {
             ExportKind::Report => "diffusor-report.html",
             ExportKind::DataCsv => "diffusor-run.csv",
+            ExportKind::ResultsJson => "diffusor-results.json",
         }
     }
 }
@@ -157,21 +167,6 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
     let mut notes = Vec::new();
     let mut inputs = Vec::with_capacity(runs.len());
     for run in runs {
-        let outcome = match (run.data(), run.fit_view(), run.error()) {
-            (Some(d), Some(f), _) => Outcome::Fitted {
-                trace: &d.trace,
-                segment: &d.step,
-                result: &f.result,
-            },
-            (d, _, Some(e)) => Outcome::Failed {
-                trace: d.map(|d| &d.trace),
-                error: e,
-            },
-            (d, _, None) => Outcome::Failed {
-                trace: d.map(|d| &d.trace),
-                error: "not fitted yet (the export was made while it was being read or fitted)",
-            },
-        };
         for (what, col) in [
             ("time", &run.columns.time),
             ("current", &run.columns.current),
@@ -191,13 +186,11 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
                 ));
             }
         }
-        inputs.push(RunInput {
-            label: &run.name,
-            sha256: run.data().and_then(|d| d.sha256.as_deref()),
-            outcome,
-        });
+        inputs.push(run_input(run));
     }
     let generated = now_utc();
+    // The same document the Results (JSON) export writes, embedded as `diffusor report` does.
+    let results = results_document(runs, &inputs, cell);
     Ok(render(&ReportInput {
         version: env!("CARGO_PKG_VERSION"),
         generated_utc: &generated,
@@ -205,8 +198,72 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
         options,
         import_notes: &notes,
         runs: &inputs,
-        results_json: None,
+        results_json: Some(&results),
     }))
+}
+
+const NOT_FITTED: &str = "not fitted yet (the export was made while it was being read or fitted)";
+
+/// The `diffusor.fit/1` text of `runs` (with `inputs` their report inputs, for the replicate
+/// comparison the report shows).
+fn results_document(runs: &[Run], inputs: &[RunInput<'_>], cell: &Cell) -> String {
+    let records: Vec<RunRecord<'_>> = runs
+        .iter()
+        .map(|run| RunRecord {
+            file: &run.name,
+            sha256: run.data().and_then(|d| d.sha256.as_deref()),
+            result: match (run.fit_view(), run.error()) {
+                (Some(f), _) => Ok(&f.result),
+                (None, Some(e)) => Err(e),
+                (None, None) => Err(NOT_FITTED),
+            },
+        })
+        .collect();
+    let reps = replicates(inputs).map(|rep| {
+        replicates_json(
+            rep.quantity,
+            rep.unit,
+            rep.summary.as_ref().map_err(String::as_str),
+        )
+    });
+    document_text(env!("CARGO_PKG_VERSION"), &records, cell, reps)
+}
+
+/// The results of `runs` as the `diffusor.fit/1` document (what `diffusor fit --json` writes,
+/// with the replicate comparison of the report), ending with a newline.
+///
+/// # Errors
+///
+/// When there is nothing to report yet.
+pub fn results_json(runs: &[Run], cell: &Cell) -> Result<String, String> {
+    if runs.is_empty() {
+        return Err("no runs to report: open a file first".to_owned());
+    }
+    let inputs: Vec<RunInput<'_>> = runs.iter().map(run_input).collect();
+    Ok(results_document(runs, &inputs, cell) + "\n")
+}
+
+fn run_input(run: &Run) -> RunInput<'_> {
+    let outcome = match (run.data(), run.fit_view(), run.error()) {
+        (Some(d), Some(f), _) => Outcome::Fitted {
+            trace: &d.trace,
+            segment: &d.step,
+            result: &f.result,
+        },
+        (d, _, Some(e)) => Outcome::Failed {
+            trace: d.map(|d| &d.trace),
+            error: e,
+        },
+        (d, _, None) => Outcome::Failed {
+            trace: d.map(|d| &d.trace),
+            error: NOT_FITTED,
+        },
+    };
+    RunInput {
+        label: &run.name,
+        sha256: run.data().and_then(|d| d.sha256.as_deref()),
+        outcome,
+    }
 }
 
 /// Writes the analysed step of `data` with its fit as CSV: a commented preamble (file, hash,

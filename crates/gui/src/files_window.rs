@@ -26,8 +26,9 @@ impl Default for SaveKind {
 
 impl SaveKind {
     /// Every choice, in the order listed.
-    pub const ALL: [SaveKind; 3] = [
+    pub const ALL: [SaveKind; 4] = [
         SaveKind::Export(ExportKind::Report),
+        SaveKind::Export(ExportKind::ResultsJson),
         SaveKind::Export(ExportKind::DataCsv),
         SaveKind::Session,
     ];

@@ -835,3 +835,29 @@ fn columns_named_in_the_window_read_a_file_the_importer_could_not() {
     assert_eq!(session.runs[0].time_column, "1");
     assert_eq!(session.runs[0].current_column, "2");
 }
+
+#[test]
+fn the_results_json_is_the_fit_document_with_the_numbers_shown() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("results.json");
+    save_through_the_window(&mut h, "Results (JSON, diffusor.fit/1, every run)", &path);
+    let text = std::fs::read_to_string(&path).expect("the JSON exists");
+    let doc: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
+    assert_eq!(doc["schema"], "diffusor.fit/1");
+    let runs = doc["runs"].as_array().expect("runs");
+    assert_eq!(runs.len(), h.state().runs().len());
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    let first = &runs[0];
+    assert_eq!(first["file"], "planar-rep1.csv (demo)");
+    assert_eq!(
+        first["sha256"].as_str(),
+        rep1.data().and_then(|d| d.sha256.as_deref())
+    );
+    // The document's D is the window's, in cm²/s (up to the last digit of the decimal text).
+    let d = first["D_cm2_s"]["value"].as_f64().expect("D");
+    assert!((d / d_cm2_s(rep1) - 1.0).abs() < 1e-14, "{d}");
+    // The replicate comparison of the report comes with it.
+    assert!(doc["replicates"].is_object());
+}
