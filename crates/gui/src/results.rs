@@ -264,8 +264,8 @@ fn columns_ui(ui: &mut egui::Ui, columns: &mut crate::runs::ColumnFields) -> Opt
             let l = ui.label(label);
             ui.add(
                 egui::TextEdit::singleline(text)
-                    .desired_width(120.0)
-                    .hint_text("number or header"),
+                    .desired_width(140.0)
+                    .hint_text("e.g. 1"),
             )
             .labelled_by(l.id);
             ui.end_row();
