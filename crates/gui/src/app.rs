@@ -11,11 +11,14 @@ use serde::{Deserialize, Serialize};
 
 use crate::cell_form::{CellPanel, FitChoices};
 use crate::compare::ComparePanel;
+use crate::export::{self, ExportKind};
+use crate::files_window::{FilesAction, FilesWindow, Notice, SaveKind};
 use crate::help::{self, HelpWindow};
 use crate::plots::{PlotInput, PlotPrefs, PlotsPanel, Which};
 use crate::results::{CAUTION, ResultAction, ResultPanel};
 use crate::runs::{FitState, Import, Origin, PALETTE, Run, RunId};
 use crate::runs_panel::{RunsAction, RunsPanel};
+use crate::session::{self, Session};
 use crate::worker::{Job, Outcome, Source, Worker};
 
 /// The key the preferences are stored under; the suffix is their schema version.
@@ -54,6 +57,14 @@ pub enum View {
     Replicates,
 }
 
+/// What a file dialog was shown for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Purpose {
+    OpenRuns,
+    Save(SaveKind),
+    OpenSession,
+}
+
 /// The Diffusor window. Drive it with [`DiffusorApp::ui`]; [`crate::run`] puts it in a native
 /// window.
 #[derive(Debug)]
@@ -75,10 +86,27 @@ pub struct DiffusorApp {
     fitted_with: Option<(Cell, FitChoices)>,
     /// The cell entries have a problem, so results are for the last valid ones.
     stale: bool,
-    /// Paths coming back from the open dialog's thread.
-    dialog: Option<Receiver<Option<Vec<PathBuf>>>>,
+    /// Paths coming back from a file dialog's thread, and what they are for.
+    dialog: Option<(Purpose, Receiver<Option<Vec<PathBuf>>>)>,
+    files: FilesWindow,
+    /// Where the session was last saved or opened from (Ctrl+S writes there again).
+    session_path: Option<PathBuf>,
+    /// The answer of the export being written, when one is.
+    writing: Option<Receiver<Result<String, String>>>,
+    /// The egui context, once the first frame has given it (for repaints from other threads).
+    ctx: Option<egui::Context>,
     status: Option<String>,
     styled: bool,
+    /// Jobs handed to the worker and answered since it was last idle: the progress bar.
+    progress: Progress,
+}
+
+/// How far the background work has come since it was last idle.
+#[derive(Debug, Clone, Copy, Default)]
+struct Progress {
+    sent: usize,
+    answered: usize,
+    since: Option<std::time::Instant>,
 }
 
 impl DiffusorApp {
@@ -102,8 +130,13 @@ impl DiffusorApp {
             fitted_with: None,
             stale: false,
             dialog: None,
+            files: FilesWindow::default(),
+            session_path: None,
+            writing: None,
+            ctx: None,
             status: None,
             styled: false,
+            progress: Progress::default(),
         };
         if files.is_empty() {
             app.load_demo();
@@ -138,6 +171,7 @@ impl DiffusorApp {
                 id,
                 name: f.name.to_owned(),
                 source: Source::Bytes(f.bytes),
+                options: Box::default(),
             });
         }
     }
@@ -162,6 +196,10 @@ impl DiffusorApp {
             hi: Default::default(),
             fit: FitState::default(),
             generations: 0,
+            cancelled_through: 0,
+            expected_sha256: None,
+            notice: None,
+            columns: Default::default(),
         });
         if self.focus.is_none() {
             self.focus = Some(id);
@@ -178,6 +216,7 @@ impl DiffusorApp {
             id,
             name,
             source: Source::Path(path.to_path_buf()),
+            options: Box::default(),
         });
     }
 
@@ -194,6 +233,7 @@ impl DiffusorApp {
             id,
             name,
             source: Source::Dropped(file),
+            options: Box::default(),
         });
     }
 
@@ -210,7 +250,12 @@ impl DiffusorApp {
 
     /// Whether an import or a fit is still running.
     pub fn is_busy(&self) -> bool {
-        !self.queue.is_empty() || self.runs.iter().any(Run::busy)
+        !self.queue.is_empty() || self.runs.iter().any(Run::busy) || self.writing.is_some()
+    }
+
+    /// The cell and electrode entries and the fit choices.
+    pub fn cell_panel(&self) -> &CellPanel {
+        &self.cell
     }
 
     /// The plots' view state.
@@ -269,8 +314,25 @@ impl DiffusorApp {
         match outcome {
             Outcome::Imported { id, result } => {
                 let Some(run) = self.run_mut(id) else { return };
+                // A cancelled import's answer comes too late to be wanted.
+                if !matches!(run.import, Import::Loading) {
+                    return;
+                }
                 match result {
                     Ok(data) => {
+                        if let Some(expected) = &run.expected_sha256
+                            && data.sha256.as_ref() != Some(expected)
+                        {
+                            run.notice = Some(format!(
+                                "this file has changed since the session was saved (SHA-256 now {}…, then {}…): the results may differ from what was seen",
+                                data.sha256
+                                    .as_deref()
+                                    .unwrap_or("?")
+                                    .get(..12)
+                                    .unwrap_or("?"),
+                                expected.get(..12).unwrap_or(expected)
+                            ));
+                        }
                         run.import = Import::Ready(data);
                         self.request_fit(id);
                     }
@@ -287,6 +349,9 @@ impl DiffusorApp {
                 result,
             } => {
                 let Some(run) = self.run_mut(id) else { return };
+                if generation <= run.cancelled_through {
+                    return;
+                }
                 if run.fit.pending == Some(generation) {
                     run.fit.pending = None;
                 }
@@ -304,18 +369,37 @@ impl DiffusorApp {
                 }
                 run.fit.latest = Some(result);
                 run.fit.latest_generation = generation;
+                run.fit.outdated = false;
             }
         }
     }
 
     fn start_dialog(&mut self) {
+        self.show_dialog(Purpose::OpenRuns);
+    }
+
+    fn show_dialog(&mut self, purpose: Purpose) {
         let (tx, rx) = channel();
         let pick = move || {
-            let files = rfd::FileDialog::new()
-                .set_title("Open current–time files")
-                .add_filter("Text and CSV", &["csv", "txt", "dat", "tsv", "asc"])
-                .add_filter("All files", &["*"])
-                .pick_files();
+            let dialog = rfd::FileDialog::new();
+            let files = match purpose {
+                Purpose::OpenRuns => dialog
+                    .set_title("Open current–time files")
+                    .add_filter("Text and CSV", &["csv", "txt", "dat", "tsv", "asc"])
+                    .add_filter("All files", &["*"])
+                    .pick_files(),
+                Purpose::OpenSession => dialog
+                    .set_title("Open a Diffusor session")
+                    .add_filter("Session (JSON)", &["json"])
+                    .pick_file()
+                    .map(|p| vec![p]),
+                Purpose::Save(kind) => dialog
+                    .set_title("Save")
+                    .set_file_name(kind.default_name())
+                    .add_filter(kind.extension(), &[kind.extension()])
+                    .save_file()
+                    .map(|p| vec![p]),
+            };
             // The window may be gone by the time the dialog closes; nothing then to tell.
             let _ = tx.send(files);
         };
@@ -323,33 +407,481 @@ impl DiffusorApp {
         // which keeps drawing.
         if cfg!(target_os = "macos") {
             pick();
-            self.dialog = Some(rx);
+            self.dialog = Some((purpose, rx));
         } else {
             match std::thread::Builder::new()
-                .name("diffusor-open-dialog".to_owned())
+                .name("diffusor-file-dialog".to_owned())
                 .spawn(pick)
             {
-                Ok(_) => self.dialog = Some(rx),
-                Err(e) => self.status = Some(format!("cannot show the open dialog: {e}")),
+                Ok(_) => self.dialog = Some((purpose, rx)),
+                Err(e) => self.status = Some(format!("cannot show the file dialog: {e}")),
             }
         }
     }
 
     fn poll_dialog(&mut self) {
-        let Some(rx) = &self.dialog else { return };
+        let Some((purpose, rx)) = &self.dialog else {
+            return;
+        };
+        let purpose = *purpose;
         match rx.try_recv() {
             Ok(Some(paths)) => {
                 self.dialog = None;
-                for p in paths {
-                    self.open_path(&p);
+                match purpose {
+                    Purpose::OpenRuns => {
+                        for p in paths {
+                            self.open_path(&p);
+                        }
+                    }
+                    Purpose::Save(kind) => {
+                        if let Some(p) = paths.into_iter().next() {
+                            self.files.save_path = p.display().to_string();
+                            self.save(kind, &p);
+                        }
+                    }
+                    Purpose::OpenSession => {
+                        if let Some(p) = paths.into_iter().next() {
+                            self.files.session_path = p.display().to_string();
+                            self.open_session_reporting(&p);
+                        }
+                    }
                 }
             }
             Ok(None) | Err(TryRecvError::Disconnected) => {
                 self.dialog = None;
-                self.status = Some("No file chosen. If no dialog appeared (no desktop portal), drop files onto the window, type a path in the Runs panel, or name them on the command line.".to_owned());
+                match purpose {
+                    Purpose::OpenRuns => {
+                        self.status = Some("No file chosen. If no dialog appeared (no desktop portal), drop files onto the window, type a path in the Runs panel, or name them on the command line.".to_owned());
+                    }
+                    Purpose::Save(_) | Purpose::OpenSession => {
+                        self.files.notice = Some(Notice::Failed("No file chosen. If no dialog appeared (no desktop portal), type the path in the field and press the button beside it.".to_owned()));
+                    }
+                }
             }
             Err(TryRecvError::Empty) => {}
         }
+    }
+
+    /// Writes `kind` to `path` (an extension is added when the name has none) and says in the
+    /// Save & export window what came of it.
+    pub fn save(&mut self, kind: SaveKind, path: &Path) {
+        let path = export::with_extension(path, kind.extension());
+        if self.writing.is_some() {
+            self.files.notice = Some(Notice::Failed(
+                "still writing the last file: wait for it to finish".to_owned(),
+            ));
+            return;
+        }
+        // The report and the CSV of a long trace take seconds to write, so they are written on
+        // a thread of their own from a copy of the runs (their data are shared, not copied).
+        let job: Box<dyn FnOnce() -> Result<String, String> + Send> = match kind {
+            SaveKind::Export(ExportKind::Report) => {
+                let Ok(cell) = self.cell.form.cell() else {
+                    self.fail("the cell entries have a problem (see the Cell & electrode panel): fix them before exporting".to_owned());
+                    return;
+                };
+                let options = self
+                    .cell
+                    .choices
+                    .options(BoundChoice::Auto, BoundChoice::Auto);
+                let runs = self.runs.clone();
+                Box::new(move || {
+                    let html = export::report_html(&runs, &cell, &options)?;
+                    export::write_atomic(&path, html.as_bytes())?;
+                    Ok(format!(
+                        "Wrote the report of {} run{} to {}",
+                        runs.len(),
+                        if runs.len() == 1 { "" } else { "s" },
+                        path.display()
+                    ))
+                })
+            }
+            SaveKind::Export(ExportKind::ResultsJson) => {
+                let Ok(cell) = self.cell.form.cell() else {
+                    self.fail("the cell entries have a problem (see the Cell & electrode panel): fix them before exporting".to_owned());
+                    return;
+                };
+                let runs = self.runs.clone();
+                Box::new(move || {
+                    let text = export::results_json(&runs, &cell)?;
+                    export::write_atomic(&path, text.as_bytes())?;
+                    Ok(format!(
+                        "Wrote the results of {} run{} to {}",
+                        runs.len(),
+                        if runs.len() == 1 { "" } else { "s" },
+                        path.display()
+                    ))
+                })
+            }
+            SaveKind::Export(ExportKind::DataCsv) => {
+                let Some(run) = self.focused().cloned() else {
+                    self.fail("no run in focus: click a run in the Runs panel first".to_owned());
+                    return;
+                };
+                Box::new(move || {
+                    export::export_data_csv(&run, &path)?;
+                    Ok(format!(
+                        "Wrote the data of {} to {}",
+                        run.name,
+                        path.display()
+                    ))
+                })
+            }
+            SaveKind::Session => {
+                let result = self.save_session(&path).map(|skipped| {
+                    let mut text = format!("Saved the session to {}", path.display());
+                    if skipped > 0 {
+                        text.push_str(&format!(
+                            " ({skipped} dropped run{} without a file path left out: save such files to disk and open them by path)",
+                            if skipped == 1 { "" } else { "s" }
+                        ));
+                    }
+                    text
+                });
+                self.finish_save(result);
+                return;
+            }
+        };
+        let (tx, rx) = channel();
+        let ctx = self.ctx.clone();
+        let spawned = std::thread::Builder::new()
+            .name("diffusor-export".to_owned())
+            .spawn(move || {
+                // The window may have closed meanwhile; then nobody waits for the answer.
+                let _ = tx.send(job());
+                if let Some(ctx) = ctx {
+                    ctx.request_repaint();
+                }
+            });
+        match spawned {
+            Ok(_) => {
+                self.writing = Some(rx);
+                self.files.notice = None;
+            }
+            Err(e) => self.fail(format!("cannot start writing the file: {e}")),
+        }
+    }
+
+    fn fail(&mut self, message: String) {
+        self.finish_save(Err(message));
+    }
+
+    fn finish_save(&mut self, result: Result<String, String>) {
+        self.files.notice = Some(match result {
+            Ok(t) => Notice::Done(t),
+            Err(e) => {
+                self.files.open = true;
+                Notice::Failed(e)
+            }
+        });
+    }
+
+    fn poll_writing(&mut self) {
+        let Some(rx) = &self.writing else { return };
+        match rx.try_recv() {
+            Ok(result) => {
+                self.writing = None;
+                self.finish_save(result);
+            }
+            Err(TryRecvError::Disconnected) => {
+                self.writing = None;
+                self.fail("writing the file stopped unexpectedly; try again".to_owned());
+            }
+            Err(TryRecvError::Empty) => {}
+        }
+    }
+
+    /// The HTML report of every run, as `diffusor report` makes it.
+    ///
+    /// # Errors
+    ///
+    /// When there are no runs, or the cell entries cannot be used.
+    pub fn report_html(&self) -> Result<String, String> {
+        let cell = self.cell.form.cell().map_err(|_| {
+            "the cell entries have a problem (see the Cell & electrode panel): fix them before exporting".to_owned()
+        })?;
+        let options = self
+            .cell
+            .choices
+            .options(BoundChoice::Auto, BoundChoice::Auto);
+        export::report_html(&self.runs, &cell, &options)
+    }
+
+    /// The session as it stands, and how many runs could not be put in it (dropped without a
+    /// path on disk).
+    pub fn session(&self) -> (Session, usize) {
+        let mut skipped = 0;
+        let mut runs = Vec::new();
+        let mut focus = None;
+        for run in &self.runs {
+            let source = match &run.origin {
+                Origin::Demo => session::RunSource::Demo {
+                    name: run.name.trim_end_matches(" (demo)").to_owned(),
+                },
+                Origin::File(p) | Origin::Dropped(p) if !p.as_os_str().is_empty() => {
+                    let p = std::path::absolute(p).unwrap_or_else(|_| p.clone());
+                    session::RunSource::File {
+                        path: p.display().to_string(),
+                    }
+                }
+                Origin::File(_) | Origin::Dropped(_) => {
+                    skipped += 1;
+                    continue;
+                }
+            };
+            let bound = |c: BoundChoice| match c {
+                BoundChoice::Auto => None,
+                BoundChoice::At(t) => Some(t),
+            };
+            if Some(run.id) == self.focus {
+                focus = Some(runs.len());
+            }
+            runs.push(session::SessionRun {
+                source,
+                // A run still being read keeps the hash its session gave it, if any.
+                sha256: run
+                    .data()
+                    .and_then(|d| d.sha256.clone())
+                    .or_else(|| run.expected_sha256.clone()),
+                selected: run.selected,
+                window_lo_s: bound(run.lo.choice),
+                window_hi_s: bound(run.hi.choice),
+                model: session::PLANAR_MODEL.to_owned(),
+                time_column: run.columns.time.trim().to_owned(),
+                current_column: run.columns.current.trim().to_owned(),
+            });
+        }
+        let s = Session {
+            schema: session::SCHEMA.to_owned(),
+            program_version: env!("CARGO_PKG_VERSION").to_owned(),
+            cell: session::CellEntries::of(&self.cell.form),
+            choices: self.cell.choices.into(),
+            runs,
+            focus,
+        };
+        (s, skipped)
+    }
+
+    /// Saves the session to `path`, atomically; returns how many runs were left out.
+    ///
+    /// # Errors
+    ///
+    /// The message to show.
+    pub fn save_session(&mut self, path: &Path) -> Result<usize, String> {
+        let (s, skipped) = self.session();
+        export::write_atomic(path, s.to_json().as_bytes())?;
+        self.session_path = Some(path.to_path_buf());
+        Ok(skipped)
+    }
+
+    fn open_session_reporting(&mut self, path: &Path) {
+        match self.open_session(path) {
+            Ok(n) => {
+                self.files.notice = Some(Notice::Done(format!(
+                    "Opened the session {} ({n} run{})",
+                    path.display(),
+                    if n == 1 { "" } else { "s" }
+                )));
+            }
+            Err(e) => {
+                self.files.open = true;
+                self.files.notice = Some(Notice::Failed(format!("{e}. Nothing was changed.")));
+            }
+        }
+    }
+
+    /// Replaces the runs, cell entries, choices and windows with those of the session at
+    /// `path`, and returns how many runs it holds. A file that cannot be read as a whole
+    /// session changes nothing.
+    ///
+    /// # Errors
+    ///
+    /// Why the file was refused.
+    pub fn open_session(&mut self, path: &Path) -> Result<usize, String> {
+        let shown = path.display().to_string();
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| format!("cannot read the session ({e}): {shown}"))?;
+        let s = session::parse(&text, &shown)?;
+        let form = s.cell.form()?;
+        let base = path.parent().map(Path::to_path_buf);
+        self.runs.clear();
+        self.focus = None;
+        self.queue.clear();
+        self.fitted_with = None;
+        self.cell.form = form;
+        self.cell.choices = s.choices.into();
+        let mut ids = Vec::new();
+        for saved in &s.runs {
+            let id = match &saved.source {
+                session::RunSource::Demo { name } => {
+                    let demo = crate::demo::FILES.iter().find(|f| f.name == name);
+                    let id = self.add_run(format!("{name} (demo)"), Origin::Demo);
+                    match demo {
+                        Some(f) => self.queue.push(Job::Import {
+                            id,
+                            name: f.name.to_owned(),
+                            source: Source::Bytes(f.bytes),
+                            options: Box::default(),
+                        }),
+                        None => {
+                            if let Some(run) = self.run_mut(id) {
+                                run.import = Import::Failed(format!(
+                                    "this version has no demo file named {name}"
+                                ));
+                            }
+                        }
+                    }
+                    id
+                }
+                session::RunSource::File { path: p } => {
+                    let mut p = PathBuf::from(p);
+                    // A session moved together with its files (another machine, a shared
+                    // folder) finds them beside it; the hash still tells whether they are the
+                    // same bytes.
+                    if !p.is_file()
+                        && let (Some(dir), Some(name)) = (&base, p.file_name())
+                        && dir.join(name).is_file()
+                    {
+                        p = dir.join(name);
+                    }
+                    let name = file_name(&p);
+                    let id = self.add_run(name.clone(), Origin::File(p.clone()));
+                    let columns = crate::runs::ColumnFields {
+                        time: saved.time_column.clone(),
+                        current: saved.current_column.clone(),
+                    };
+                    self.queue.push(Job::Import {
+                        id,
+                        name,
+                        source: Source::Path(p),
+                        options: Box::new(columns.options()),
+                    });
+                    if let Some(run) = self.run_mut(id) {
+                        run.columns = columns;
+                    }
+                    id
+                }
+            };
+            if let Some(run) = self.run_mut(id) {
+                run.selected = saved.selected;
+                run.expected_sha256.clone_from(&saved.sha256);
+                for (field, bound) in [
+                    (&mut run.lo, saved.window_lo_s),
+                    (&mut run.hi, saved.window_hi_s),
+                ] {
+                    if let Some(t) = bound {
+                        field.choice = BoundChoice::At(t);
+                        field.show_time(t);
+                    }
+                }
+                if saved.model != session::PLANAR_MODEL {
+                    run.notice = Some(format!(
+                        "saved with the model “{}”, which this version does not offer: fitted with planar Cottrell",
+                        saved.model
+                    ));
+                }
+            }
+            ids.push(id);
+        }
+        self.focus = s
+            .focus
+            .and_then(|k| ids.get(k).copied())
+            .or(ids.first().copied());
+        self.session_path = Some(path.to_path_buf());
+        Ok(ids.len())
+    }
+
+    fn files_actions(&mut self, actions: Vec<FilesAction>) {
+        for a in actions {
+            match a {
+                FilesAction::Save { kind, path } => self.save(kind, &path),
+                FilesAction::BrowseSave(kind) => self.show_dialog(Purpose::Save(kind)),
+                FilesAction::BrowseSession => self.show_dialog(Purpose::OpenSession),
+                FilesAction::OpenSession(p) => self.open_session_reporting(&p),
+            }
+        }
+    }
+
+    /// The Save & export window's view state.
+    pub fn files_window(&self) -> &FilesWindow {
+        &self.files
+    }
+
+    /// Reads run `id`'s file again with the columns named in its fields.
+    pub fn read_again(&mut self, id: RunId) {
+        let Some(run) = self.run_mut(id) else { return };
+        let source = match &run.origin {
+            Origin::Demo => crate::demo::FILES
+                .iter()
+                .find(|f| run.name == format!("{} (demo)", f.name))
+                .map(|f| Source::Bytes(f.bytes)),
+            Origin::File(p) | Origin::Dropped(p) if p.is_file() => Some(Source::Path(p.clone())),
+            Origin::File(_) | Origin::Dropped(_) => None,
+        };
+        let Some(source) = source else {
+            run.import = Import::Failed(
+                "this file came without a path on disk and cannot be read again: drop it onto the window once more"
+                    .to_owned(),
+            );
+            return;
+        };
+        run.import = Import::Loading;
+        run.fit = crate::runs::FitState::default();
+        run.selected = true;
+        let options = Box::new(run.columns.options());
+        let name = run.name.clone();
+        self.queue.push(Job::Import {
+            id,
+            name,
+            source,
+            options,
+        });
+    }
+
+    /// Stops the reading and fitting in progress: queued work is dropped, runs being read are
+    /// marked as cancelled, fits being computed keep their previous result, and answers still
+    /// on their way are ignored when they come.
+    pub fn cancel_work(&mut self) {
+        if let Some(w) = &self.worker {
+            w.cancel();
+        }
+        self.queue.clear();
+        let mut stopped = 0;
+        for run in &mut self.runs {
+            if matches!(run.import, Import::Loading) {
+                run.import = Import::Failed(
+                    "reading was cancelled: open the file again (Open files…, or type its path) to read it"
+                        .to_owned(),
+                );
+                run.selected = false;
+                stopped += 1;
+            }
+            if run.fit.pending.take().is_some() {
+                run.cancelled_through = run.generations;
+                run.fit.outdated = true;
+                stopped += 1;
+            }
+        }
+        // `fitted_with` is left as it is: resetting it would refit everything at the next frame
+        // and undo the cancel. The runs whose fit was stopped say that their result is older.
+        self.progress = Progress::default();
+        self.status = Some(format!(
+            "Cancelled {stopped} step{}. Refit (Ctrl+R) to fit again.",
+            if stopped == 1 { "" } else { "s" }
+        ));
+    }
+
+    fn focus_step(&mut self, step: isize) {
+        if self.runs.is_empty() {
+            return;
+        }
+        let at = self
+            .focus
+            .and_then(|id| self.runs.iter().position(|r| r.id == id))
+            .unwrap_or(0);
+        let n = self.runs.len() as isize;
+        let next = (at as isize + step).rem_euclid(n) as usize;
+        self.focus = Some(self.runs[next].id);
     }
 
     fn toggle_theme(&mut self, ctx: &egui::Context) {
@@ -387,11 +919,35 @@ impl DiffusorApp {
         if pressed(help::HELP) {
             self.help.open = !self.help.open;
         }
+        if self.is_busy() && pressed(help::CANCEL) {
+            self.cancel_work();
+        }
+        if pressed(help::EXPORT) {
+            self.files.open = !self.files.open;
+        }
+        if pressed(help::SAVE_SESSION) {
+            match self.session_path.clone() {
+                Some(p) => self.save(SaveKind::Session, &p),
+                None => {
+                    self.files.kind = SaveKind::Session;
+                    self.files.open = true;
+                }
+            }
+        }
+        if pressed(help::NEXT_RUN) {
+            self.focus_step(1);
+        }
+        if pressed(help::PREVIOUS_RUN) {
+            self.focus_step(-1);
+        }
     }
 
     /// Draws the whole window inside `ui` and does what the user asked.
     pub fn ui(&mut self, ui: &mut egui::Ui) {
         let ctx = ui.ctx().clone();
+        if self.ctx.is_none() {
+            self.ctx = Some(ctx.clone());
+        }
         if !self.styled {
             apply_style(&ctx);
             apply_theme(&ctx, self.prefs.theme);
@@ -405,13 +961,19 @@ impl DiffusorApp {
         }
         if let Some(w) = &self.worker {
             for o in w.received() {
+                self.progress.answered += 1;
                 self.receive(o);
             }
+        }
+        if !self.is_busy() {
+            self.progress = Progress::default();
         }
         for f in ctx.input(|i| i.raw.dropped_files.clone()) {
             self.open_dropped(f);
         }
         self.poll_dialog();
+        self.poll_writing();
+        self.files.writing = self.writing.is_some();
         self.shortcuts(&ctx);
 
         self.top_bar_ui(ui);
@@ -448,6 +1010,8 @@ impl DiffusorApp {
             View::Replicates => self.compare.ui(ui, &self.runs),
         });
         self.help.show(&ctx);
+        let actions = self.files.show(&ctx);
+        self.files_actions(actions);
         if ctx.input(|i| !i.raw.hovered_files.is_empty()) {
             drop_hint(&ctx);
         }
@@ -468,6 +1032,10 @@ impl DiffusorApp {
         }
         if let Some(w) = &self.worker {
             for job in self.queue.drain(..) {
+                self.progress.sent += 1;
+                self.progress
+                    .since
+                    .get_or_insert_with(std::time::Instant::now);
                 if !w.send(job) {
                     self.status =
                         Some("the background worker stopped; restart Diffusor".to_owned());
@@ -497,6 +1065,13 @@ impl DiffusorApp {
                     .clicked()
                 {
                     self.refit_all();
+                }
+                if ui
+                    .button("Save & export…")
+                    .on_hover_text("Report, data, session (Ctrl+E)")
+                    .clicked()
+                {
+                    self.files.open = !self.files.open;
                 }
                 ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
                     if ui
@@ -533,11 +1108,43 @@ impl DiffusorApp {
                 let busy = self.runs.iter().filter(|r| r.busy()).count();
                 if busy > 0 {
                     ui.spinner();
+                    let reading = self
+                        .runs
+                        .iter()
+                        .find(|r| matches!(r.import, Import::Loading))
+                        .map(|r| r.name.as_str());
+                    let what = match reading {
+                        Some(name) => format!("reading {name}"),
+                        None => "fitting".to_owned(),
+                    };
                     ui.label(format!(
-                        "working on {busy} run{}…",
+                        "{what}; {busy} run{} to go",
                         if busy == 1 { "" } else { "s" }
                     ));
+                    let p = self.progress;
+                    let total = p.sent.max(1);
+                    let secs = p.since.map_or(0.0, |t| t.elapsed().as_secs_f32());
+                    ui.add(
+                        egui::ProgressBar::new(p.answered.min(total) as f32 / total as f32)
+                            .desired_width(160.0)
+                            .text(format!(
+                                "{} of {} steps, {secs:.0} s",
+                                p.answered.min(total),
+                                p.sent
+                            )),
+                    )
+                    .on_hover_text("Each file is one step to read and one to fit");
+                    if ui
+                        .button("Cancel")
+                        .on_hover_text("Stop reading and fitting (Esc); the results so far stay")
+                        .clicked()
+                    {
+                        self.cancel_work();
+                    }
                     ui.separator();
+                    // The elapsed time moves even when no answer comes.
+                    ui.ctx()
+                        .request_repaint_after(std::time::Duration::from_millis(250));
                 }
                 if let Some(s) = &self.status {
                     ui.colored_label(ui.visuals().warn_fg_color, s);
@@ -594,6 +1201,11 @@ impl DiffusorApp {
                     Some(ResultAction::AutomaticWindow) => {
                         if let Some(id) = focus {
                             self.automatic_window(id);
+                        }
+                    }
+                    Some(ResultAction::ReadAgain) => {
+                        if let Some(id) = focus {
+                            self.read_again(id);
                         }
                     }
                     None => {}

@@ -275,9 +275,14 @@ fn overlay_ui(ui: &mut egui::Ui, chosen: &[&Run]) {
                     if range.is_empty() {
                         continue;
                     }
-                    let pts = time_series(plot_ui, &data.time_s, range, Scale::Log, |i| {
-                        fit.normalised[i]
-                    });
+                    let pts = time_series(
+                        plot_ui,
+                        &data.time_s,
+                        range,
+                        Scale::Log,
+                        |i| fit.normalised[i],
+                        Some((&fit.normalised, &fit.normalised_pyramid)),
+                    );
                     plot_ui.line(Line::new(run.name.clone(), pts).color(colour).width(width));
                 }
             }

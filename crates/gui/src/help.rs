@@ -16,17 +16,32 @@ pub const THEME: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Ke
 pub const FIT_VIEW: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::Num1);
 /// The replicate view.
 pub const REPLICATE_VIEW: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::Num2);
+/// The Save & export window.
+pub const EXPORT: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::E);
+/// Save the session (where it was last saved or opened, else ask where).
+pub const SAVE_SESSION: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::S);
+/// The next run in the list.
+pub const NEXT_RUN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::ALT, Key::ArrowDown);
+/// The previous run in the list.
+pub const PREVIOUS_RUN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::ALT, Key::ArrowUp);
+/// Stop the reading and fitting in progress.
+pub const CANCEL: KeyboardShortcut = KeyboardShortcut::new(Modifiers::NONE, Key::Escape);
 /// This window.
 pub const HELP: KeyboardShortcut = KeyboardShortcut::new(Modifiers::NONE, Key::F1);
 
 /// Every shortcut with what it does, in the order the help lists them.
-pub const SHORTCUTS: [(KeyboardShortcut, &str); 7] = [
+pub const SHORTCUTS: [(KeyboardShortcut, &str); 12] = [
     (OPEN, "open files"),
+    (EXPORT, "save & export: report, data, session"),
+    (SAVE_SESSION, "save the session"),
+    (NEXT_RUN, "next run"),
+    (PREVIOUS_RUN, "previous run"),
     (REFIT, "fit every run again"),
-    (AUTO_WINDOW, "automatic window for the run in focus"),
+    (AUTO_WINDOW, "reset the focused run's window to automatic"),
     (THEME, "light or dark theme"),
     (FIT_VIEW, "fit view"),
     (REPLICATE_VIEW, "replicate comparison"),
+    (CANCEL, "cancel the reading and fitting in progress"),
     (HELP, "this help"),
 ];
 
@@ -47,6 +62,7 @@ impl HelpWindow {
         let mut open = self.open;
         egui::Window::new("Help & notes")
             .open(&mut open)
+            .default_pos([720.0, 40.0])
             .default_width(520.0)
             .default_height(560.0)
             .vscroll(true)

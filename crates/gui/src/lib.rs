@@ -27,12 +27,16 @@ pub mod cell_form;
 pub mod compare;
 pub mod decimate;
 pub mod demo;
+pub mod export;
+pub mod files_window;
 pub mod format;
 pub mod help;
+pub mod messages;
 pub mod plots;
 pub mod results;
 pub mod runs;
 pub mod runs_panel;
+pub mod session;
 pub mod units;
 pub mod worker;
 

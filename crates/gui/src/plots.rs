@@ -11,7 +11,7 @@ use egui_plot::{
 };
 use serde::{Deserialize, Serialize};
 
-use crate::decimate::{envelope, index_range};
+use crate::decimate::{Pyramid, envelope, envelope_fast, index_range};
 use crate::runs::{FitView, Run, RunData, RunId};
 
 /// Linear or logarithmic axis.
@@ -186,15 +186,32 @@ pub fn columns(plot_ui: &PlotUi<'_>) -> usize {
 }
 
 /// The samples of a time series in view, decimated: `x` is `scale` of time (increasing), `y`
-/// any value per sample. `range` limits the samples considered (the window, say).
+/// any value per sample. `range` limits the samples considered (the window, say). With `fast`
+/// (the raw series `y` increases with, and its pyramid) the frame costs a few thousand
+/// look-ups instead of a pass over every sample in view.
 pub fn time_series(
     plot_ui: &PlotUi<'_>,
     time_s: &[f64],
     range: std::ops::Range<usize>,
     scale: Scale,
     y: impl Fn(usize) -> f64,
+    fast: Option<(&[f64], &Pyramid)>,
 ) -> Vec<[f64; 2]> {
-    let cols = columns(plot_ui);
+    let visible = zoomed_x(plot_ui);
+    series_in_view(time_s, range, scale, visible, columns(plot_ui), y, fast)
+}
+
+/// What [`time_series`] draws, for a view showing `visible` (plot coordinates; `None`: all of
+/// `range`) across `cols` pixel columns. Public for the frame benchmark.
+pub fn series_in_view(
+    time_s: &[f64],
+    range: std::ops::Range<usize>,
+    scale: Scale,
+    visible: Option<(f64, f64)>,
+    cols: usize,
+    y: impl Fn(usize) -> f64,
+    fast: Option<(&[f64], &Pyramid)>,
+) -> Vec<[f64; 2]> {
     let full = (
         time_s.get(range.start).copied().unwrap_or(f64::NAN),
         time_s
@@ -202,7 +219,7 @@ pub fn time_series(
             .copied()
             .unwrap_or(f64::NAN),
     );
-    let (indices, x_lo, x_hi) = match zoomed_x(plot_ui) {
+    let (indices, x_lo, x_hi) = match visible {
         Some((a, b)) => {
             let r = index_range(time_s, scale.from_plot(a), scale.from_plot(b));
             (r.start.max(range.start)..r.end.min(range.end), a, b)
@@ -210,7 +227,11 @@ pub fn time_series(
         None => (range, scale.to_plot(full.0), scale.to_plot(full.1)),
     };
     let indices = indices.start..indices.end.max(indices.start);
-    envelope(indices, |i| scale.to_plot(time_s[i]), y, x_lo, x_hi, cols)
+    let x = |i: usize| scale.to_plot(time_s[i]);
+    match fast {
+        Some(raw) => envelope_fast(indices, x, raw, y, x_lo, x_hi, cols),
+        None => envelope(indices, x, y, x_lo, x_hi, cols),
+    }
 }
 
 /// The colour for a run's data: its own, faded when it is not the one in focus.
@@ -425,6 +446,7 @@ impl PlotsPanel {
                     0..data.time_s.len(),
                     time_scale,
                     |i| y_of(data.current_a[i]),
+                    Some((&data.current_a, &data.current_pyramid)),
                 );
                 plot_ui.line(
                     Line::new(run.name.clone(), pts)
@@ -589,9 +611,14 @@ impl PlotsPanel {
                 if range.is_empty() {
                     continue;
                 }
-                let pts = time_series(plot_ui, &data.time_s, range, time_scale, |i| {
-                    fit.residual_a[i] / scale
-                });
+                let pts = time_series(
+                    plot_ui,
+                    &data.time_s,
+                    range,
+                    time_scale,
+                    |i| fit.residual_a[i] / scale,
+                    Some((&fit.residual_a, &fit.residual_pyramid)),
+                );
                 plot_ui.line(Line::new(name, pts).color(colour).width(1.0));
             }
             plot_ui.hline(HLine::new("zero", 0.0).color(ink).width(1.0));
@@ -668,9 +695,10 @@ fn cottrell_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, 
                 }
                 None => (0..n, x_of(n.saturating_sub(1)), x_of(0)),
             };
-            let pts = envelope(
+            let pts = envelope_fast(
                 indices,
                 x_of,
+                (&data.current_a, &data.current_pyramid),
                 |i| data.current_a[i] / scale,
                 x_lo,
                 x_hi,
@@ -754,6 +782,7 @@ fn plateau_ui(
                 0..data.time_s.len(),
                 Scale::Log,
                 |i| f.map_or(data.current_a[i] * data.time_s[i].sqrt(), |f| f.i_sqrt_t[i]) / scale,
+                f.map(|f| (f.i_sqrt_t.as_slice(), &f.i_sqrt_t_pyramid)),
             );
             plot_ui.line(
                 Line::new(run.name.clone(), pts)

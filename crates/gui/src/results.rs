@@ -21,6 +21,8 @@ pub enum ResultAction {
     WindowEdited,
     /// Back to the automatic window: refit the run.
     AutomaticWindow,
+    /// Read the file again with the columns named.
+    ReadAgain,
 }
 
 /// The "Result" panel's view state (the collapsible sections keep their own).
@@ -136,12 +138,20 @@ impl ResultPanel {
                 return None;
             }
             Import::Failed(e) => {
+                // The importer's sentence in red; the advice under it in the normal colour, so
+                // it reads as what to do rather than as more of the error.
+                let (what, todo) = crate::messages::split(e);
                 wrapped(
                     ui,
-                    RichText::new(format!("The file could not be read: {e}"))
+                    RichText::new(format!("The file could not be read: {what}"))
                         .color(ui.visuals().error_fg_color),
                 );
-                return None;
+                if let Some(todo) = todo {
+                    ui.add_space(4.0);
+                    ui.strong("What to do");
+                    wrapped(ui, RichText::new(todo));
+                }
+                return columns_ui(ui, &mut run.columns);
             }
             Import::Ready(_) => {}
         }
@@ -228,12 +238,46 @@ impl ResultPanel {
                         ui.label("cathodic step: the current's sign is reversed for the fit and the plots");
                     }
                     for w in &data.trace.warnings {
-                        wrapped(ui, RichText::new(&w.message).color(warn_colour(ui)));
+                        wrapped(
+                            ui,
+                            RichText::new(crate::messages::import_warning(&w.message))
+                                .color(warn_colour(ui)),
+                        );
                     }
                 });
         }
         action
     }
+}
+
+/// Fields to name the time and current columns (a position from 1, or the header text) and a
+/// button to read the file again with them.
+fn columns_ui(ui: &mut egui::Ui, columns: &mut crate::runs::ColumnFields) -> Option<ResultAction> {
+    ui.add_space(6.0);
+    ui.strong("Columns");
+    let mut action = None;
+    egui::Grid::new("columns").num_columns(2).show(ui, |ui| {
+        for (label, text) in [
+            ("Time column", &mut columns.time),
+            ("Current column", &mut columns.current),
+        ] {
+            let l = ui.label(label);
+            ui.add(
+                egui::TextEdit::singleline(text)
+                    .desired_width(140.0)
+                    .hint_text("e.g. 1"),
+            )
+            .labelled_by(l.id);
+            ui.end_row();
+        }
+    });
+    ui.weak(
+        "A position from 1 (1 = first column) or the column's header; empty lets Diffusor guess.",
+    );
+    if ui.button("Read again").clicked() {
+        action = Some(ResultAction::ReadAgain);
+    }
+    action
 }
 
 fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&PlanarResult>) -> Option<ResultAction> {

@@ -10,6 +10,7 @@ use diffusor_trace::{Segment, Trace};
 use eframe::egui::Color32;
 
 use crate::cell_form::parse_number;
+use crate::decimate::Pyramid;
 use crate::format;
 
 /// Identifies a run for as long as the window is open.
@@ -44,6 +45,10 @@ pub struct RunData {
     pub sign_reversed: bool,
     /// How many potential steps the file holds.
     pub steps: usize,
+    /// SHA-256 of the bytes read, in hex (what a session records to tell a changed file).
+    pub sha256: Option<String>,
+    /// Block extremes of `current_a`, so a frame draws ten million samples quickly.
+    pub current_pyramid: Pyramid,
 }
 
 impl RunData {
@@ -70,6 +75,12 @@ impl RunData {
             step,
             sign_reversed,
             steps,
+            sha256: None,
+            current_pyramid: Pyramid::default(),
+        })
+        .map(|mut d| {
+            d.current_pyramid = Pyramid::new(&d.current_a);
+            d
         })
     }
 }
@@ -89,6 +100,12 @@ pub struct FitView {
     pub normalised: Vec<f64>,
     /// The largest |I − I_fit| inside the window, in A: how far the residual plot must reach.
     pub window_residual_max_a: f64,
+    /// Block extremes of `residual_a`.
+    pub residual_pyramid: Pyramid,
+    /// Block extremes of `i_sqrt_t`.
+    pub i_sqrt_t_pyramid: Pyramid,
+    /// Block extremes of `normalised`.
+    pub normalised_pyramid: Pyramid,
 }
 
 impl FitView {
@@ -123,6 +140,9 @@ impl FitView {
             .filter(|r| r.is_finite())
             .fold(0.0_f64, |m, r| m.max(r.abs()));
         FitView {
+            residual_pyramid: Pyramid::new(&residual_a),
+            i_sqrt_t_pyramid: Pyramid::new(&i_sqrt_t),
+            normalised_pyramid: Pyramid::new(&normalised),
             window_residual_max_a,
             result,
             residual_a,
@@ -214,6 +234,35 @@ pub struct FitState {
     pub latest_generation: u64,
     /// The generation of the fit being computed, if any.
     pub pending: Option<u64>,
+    /// A newer fit was cancelled: `latest` is from before the last change of entries.
+    pub outdated: bool,
+}
+
+/// The columns the user named for a file whose columns the importer could not tell apart: a
+/// position from 1 or the header text, empty to let the importer decide.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct ColumnFields {
+    /// The time column.
+    pub time: String,
+    /// The current column.
+    pub current: String,
+}
+
+impl ColumnFields {
+    /// The importer's options for these choices.
+    pub fn options(&self) -> diffusor_trace::ImportOptions {
+        let pick = |t: &str| (!t.trim().is_empty()).then(|| diffusor_trace::ColumnChoice::parse(t));
+        diffusor_trace::ImportOptions {
+            time_column: pick(&self.time),
+            current_column: pick(&self.current),
+            ..Default::default()
+        }
+    }
+
+    /// Whether any column was named.
+    pub fn any(&self) -> bool {
+        !(self.time.trim().is_empty() && self.current.trim().is_empty())
+    }
 }
 
 /// A loaded run.
@@ -239,6 +288,14 @@ pub struct Run {
     pub fit: FitState,
     /// Generation counter for fits, so a late result of an older request is not shown.
     pub generations: u64,
+    /// Fits up to this generation were cancelled: their results are dropped when they come.
+    pub cancelled_through: u64,
+    /// The SHA-256 a saved session recorded for this run's file, to compare on import.
+    pub expected_sha256: Option<String>,
+    /// A warning about the run that is not the fit's (a changed file, an unknown model).
+    pub notice: Option<String>,
+    /// The columns named for the import.
+    pub columns: ColumnFields,
 }
 
 impl Run {

@@ -187,12 +187,15 @@ impl RunsPanel {
                             ui.weak(text);
                         }
                         StatusKind::Error => {
+                            // The advice is in the Result panel; the list keeps to the error.
+                            let (what, todo) = crate::messages::split(&text);
                             ui.add(
                                 egui::Label::new(
-                                    RichText::new(text).color(ui.visuals().error_fg_color),
+                                    RichText::new(what).color(ui.visuals().error_fg_color),
                                 )
                                 .wrap(),
-                            );
+                            )
+                            .on_hover_text(todo.unwrap_or("see the Result panel"));
                         }
                         StatusKind::Done | StatusKind::DoneWithWarnings(_) => {
                             if run.busy() {
@@ -206,6 +209,26 @@ impl RunsPanel {
                         }
                     }
                 });
+                if run.fit.outdated {
+                    ui.horizontal_top(|ui| {
+                        ui.add_space(20.0);
+                        ui.colored_label(
+                            ui.visuals().warn_fg_color,
+                            "▲ fit cancelled: this result is from before the last change (Refit updates it)",
+                        );
+                    });
+                }
+                if let Some(n) = &run.notice {
+                    ui.horizontal_top(|ui| {
+                        ui.add_space(20.0);
+                        ui.add(
+                            egui::Label::new(
+                                RichText::new(format!("▲ {n}")).color(ui.visuals().warn_fg_color),
+                            )
+                            .wrap(),
+                        );
+                    });
+                }
             });
         }
         actions

@@ -4,12 +4,14 @@
 
 use std::path::PathBuf;
 use std::sync::Arc;
+use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::mpsc::{Receiver, Sender, TryRecvError, channel};
 
 use diffusor_fit::cell::Cell;
 use diffusor_fit::planar::{PlanarOptions, analyze};
-use diffusor_trace::{ImportOptions, import_bytes, import_path};
+use diffusor_trace::{ImportOptions, import_bytes};
 use eframe::egui;
+use sha2::{Digest, Sha256};
 
 use crate::runs::{FitView, RunData, RunId};
 
@@ -45,6 +47,8 @@ pub enum Job {
         name: String,
         /// Its bytes.
         source: Source,
+        /// The importer's choices (columns picked by the user), default otherwise.
+        options: Box<ImportOptions>,
     },
     /// Fit a run.
     Fit {
@@ -85,24 +89,40 @@ pub enum Outcome {
 /// The handle to the background thread.
 #[derive(Debug)]
 pub struct Worker {
-    jobs: Sender<Job>,
+    jobs: Sender<(u64, Job)>,
     outcomes: Receiver<Outcome>,
+    /// Jobs sent before the latest cancel carry a smaller number and are skipped.
+    epoch: Arc<AtomicU64>,
 }
 
 impl Worker {
     /// Starts the thread; each outcome calls `ctx.request_repaint()`.
     pub fn spawn(ctx: egui::Context) -> std::io::Result<Worker> {
-        let (jobs, job_rx) = channel::<Job>();
+        let (jobs, job_rx) = channel::<(u64, Job)>();
         let (out_tx, outcomes) = channel::<Outcome>();
+        let epoch = Arc::new(AtomicU64::new(0));
+        let seen = Arc::clone(&epoch);
         std::thread::Builder::new()
             .name("diffusor-worker".to_owned())
-            .spawn(move || work(&job_rx, &out_tx, &ctx))?;
-        Ok(Worker { jobs, outcomes })
+            .spawn(move || work(&job_rx, &out_tx, &ctx, &seen))?;
+        Ok(Worker {
+            jobs,
+            outcomes,
+            epoch,
+        })
     }
 
     /// Hands a job to the thread. `false` when the thread has gone.
     pub fn send(&self, job: Job) -> bool {
-        self.jobs.send(job).is_ok()
+        self.jobs
+            .send((self.epoch.load(Ordering::Acquire), job))
+            .is_ok()
+    }
+
+    /// Drops every job not yet started. The one running finishes (the importer and the fit
+    /// cannot be interrupted), and its outcome is for the caller to ignore.
+    pub fn cancel(&self) {
+        self.epoch.fetch_add(1, Ordering::AcqRel);
     }
 
     /// The outcomes that have arrived.
@@ -117,14 +137,25 @@ impl Worker {
     }
 }
 
-fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
+fn work(
+    jobs: &Receiver<(u64, Job)>,
+    outcomes: &Sender<Outcome>,
+    ctx: &egui::Context,
+    epoch: &AtomicU64,
+) {
     while let Ok(first) = jobs.recv() {
         // Everything queued meanwhile is looked at together, so that a fit already superseded
         // by a newer request for the same run (typing in a field sends one per key) is skipped.
-        let mut batch = vec![first];
+        let mut tagged = vec![first];
         while let Ok(j) = jobs.try_recv() {
-            batch.push(j);
+            tagged.push(j);
         }
+        let now = epoch.load(Ordering::Acquire);
+        let batch: Vec<Job> = tagged
+            .into_iter()
+            .filter(|(e, _)| *e >= now)
+            .map(|(_, j)| j)
+            .collect();
         let newest = |id: RunId| {
             batch
                 .iter()
@@ -144,7 +175,8 @@ fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
             })
             .collect();
         for (job, keep) in batch.into_iter().zip(keep) {
-            if !keep {
+            // A cancel while this batch runs drops the rest of it.
+            if !keep || epoch.load(Ordering::Acquire) != now {
                 continue;
             }
             let outcome = run_job(job);
@@ -156,36 +188,49 @@ fn work(jobs: &Receiver<Job>, outcomes: &Sender<Outcome>, ctx: &egui::Context) {
     }
 }
 
+/// A file's bytes, labelled as the importer labels a path (its messages end with it).
+fn read_file(path: &std::path::Path) -> Result<(String, std::borrow::Cow<'static, [u8]>), String> {
+    let label = path.display().to_string();
+    std::fs::read(path)
+        .map(|b| (label.clone(), std::borrow::Cow::Owned(b)))
+        .map_err(|e| format!("cannot read the file ({e}): {label}"))
+}
+
 fn run_job(job: Job) -> Outcome {
     match job {
-        Job::Import { id, name, source } => {
-            let options = ImportOptions::default();
-            let trace = match source {
-                Source::Bytes(bytes) => import_bytes(&name, bytes, &options),
-                Source::Path(path) => import_path(&path, &options),
+        Job::Import {
+            id,
+            name,
+            source,
+            options,
+        } => {
+            // The bytes are read here rather than by the importer so that their SHA-256 (which
+            // a saved session compares) is of exactly what was fitted.
+            let read = match source {
+                Source::Bytes(bytes) => Ok((name.clone(), std::borrow::Cow::Borrowed(bytes))),
+                Source::Path(path) => read_file(&path),
                 Source::Dropped(handle) => {
                     let path = handle.path();
                     if path.is_file() {
-                        import_path(path, &options)
+                        read_file(path)
                     } else {
-                        match handle.bytes() {
-                            Ok(bytes) => import_bytes(&name, &bytes, &options),
-                            Err(e) => {
-                                return Outcome::Imported {
-                                    id,
-                                    result: Err(format!(
-                                        "cannot read the dropped file ({e}): {name}"
-                                    )),
-                                };
-                            }
-                        }
+                        handle
+                            .bytes()
+                            .map(|b| (name.clone(), std::borrow::Cow::Owned(b)))
+                            .map_err(|e| format!("cannot read the dropped file ({e}): {name}"))
                     }
                 }
             };
-            let result = trace
-                .map_err(|e| e.to_string())
-                .and_then(RunData::new)
-                .map(Arc::new);
+            let result = read.and_then(|(label, bytes)| {
+                let sha = format!("{:x}", Sha256::digest(&bytes));
+                import_bytes(&label, &bytes, &options)
+                    .map_err(|e| crate::messages::import_error(&e))
+                    .and_then(RunData::new)
+                    .map(|mut d| {
+                        d.sha256 = Some(sha);
+                        Arc::new(d)
+                    })
+            });
             Outcome::Imported { id, result }
         }
         Job::Fit {

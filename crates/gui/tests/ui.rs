@@ -7,6 +7,7 @@ use std::time::{Duration, Instant};
 
 use diffusor_fit::planar::{PlanarOptions, analyze};
 use diffusor_fit::replicates::{GrubbsOutcome, RunEstimate, summarize};
+use diffusor_gui::files_window::Notice;
 use diffusor_gui::format::{sci, sci_interval};
 use diffusor_gui::runs::Run;
 use diffusor_gui::{DiffusorApp, Prefs, ThemeChoice, View};
@@ -362,14 +363,18 @@ fn a_broken_file_shows_its_error_beside_the_run() {
     settle(&mut h);
     // The importer's message (crates/trace, TimeNotIncreasing), shown in the list beside the
     // run and in the Result panel.
-    let message = "line 5: time goes backwards (0.0015 s after 0.002 s); a trace must be in time order: broken.csv";
+    // The importer's message (crates/trace, TimeBackwards), then what to do in the window.
+    let message = "line 5: time goes backwards (0.0015 s after 0.002 s); a trace must be in time order: broken.csv\nThe file may hold several records one after the other: save each in a file of its own and open them one by one.";
     assert_eq!(run_named(&h, "broken.csv").error(), Some(message));
     assert!(
         !run_named(&h, "broken.csv").selected,
         "an unreadable file is left out of the overlays and the comparison"
     );
-    h.get_by_label(&format!("cannot read: {message}"));
-    h.get_by_label(&format!("The file could not be read: {message}"));
+    let (what, todo) = message.split_once('\n').expect("an error, then advice");
+    h.get_by_label(&format!("cannot read: {what}"));
+    h.get_by_label(&format!("The file could not be read: {what}"));
+    h.get_by_label("What to do");
+    h.get_by_label(todo);
     // The other runs are untouched.
     assert!(d_cm2_s(run_named(&h, "planar-rep1.csv (demo)")) > 0.0);
 }
@@ -456,4 +461,403 @@ fn snapshot_of_the_replicate_view() {
     h.get_by_label("Replicates").click();
     h.run();
     h.snapshot_options("demo_replicates", &snapshot_options());
+}
+
+/// Opens the Save & export window, picks `kind` and saves to `path` through the typed-path
+/// field, as a user without a desktop portal (no save dialog) would.
+fn save_through_the_window(h: &mut Harness<'_, DiffusorApp>, kind: &str, path: &std::path::Path) {
+    if !h.state().files_window().open {
+        h.get_by_label("Save & export…").click();
+        h.run();
+    }
+    h.get_by_label(kind).click();
+    h.run();
+    retype(h, "Save to", &path.display().to_string());
+    h.get_by_role_and_label(Role::Button, "Save").click();
+    // The report and the CSV are written on a thread of their own: wait for it.
+    settle(h);
+}
+
+fn open_session_through_the_window(h: &mut Harness<'_, DiffusorApp>, path: &std::path::Path) {
+    if !h.state().files_window().open {
+        h.get_by_label("Save & export…").click();
+        h.run();
+    }
+    retype(h, "Session file", &path.display().to_string());
+}
+
+fn notice(h: &Harness<'_, DiffusorApp>) -> String {
+    match &h.state().files_window().notice {
+        Some(Notice::Done(t) | Notice::Failed(t)) => t.clone(),
+        None => panic!("no notice"),
+    }
+}
+
+#[test]
+fn the_report_is_written_from_the_window_with_the_d_it_shows() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("demo-report.html");
+    save_through_the_window(&mut h, "Report (HTML, every run)", &path);
+    assert!(
+        matches!(h.state().files_window().notice, Some(Notice::Done(_))),
+        "{}",
+        notice(&h)
+    );
+    let html = std::fs::read_to_string(&path).expect("the report exists");
+    assert!(html.starts_with("<!DOCTYPE html>"), "an HTML page");
+    // The Result panel shows D = m × 10ᵉ cm²/s; the report quotes the same mantissa.
+    let d = d_cm2_s(run_named(&h, "planar-rep1.csv (demo)"));
+    let shown = sci(d, 4);
+    h.get_by_label(&format!("D = {shown} cm²/s"));
+    let mantissa = shown.split(" ×").next().expect("a mantissa");
+    assert!(html.contains(mantissa), "the report has {mantissa}");
+    assert!(html.contains("planar-rep1.csv (demo)"));
+}
+
+#[test]
+fn the_data_csv_holds_the_fit_and_residuals_and_a_bad_path_gives_a_message() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("rep1");
+    save_through_the_window(&mut h, "Data of the run in focus (CSV)", &path);
+    // No extension typed: .csv is added.
+    let text = std::fs::read_to_string(dir.path().join("rep1.csv")).expect("the CSV exists");
+    let header = text
+        .lines()
+        .find(|l| !l.starts_with('#'))
+        .expect("a header");
+    assert_eq!(
+        header,
+        "time_s,current_A,fitted_current_A,residual_A,in_window"
+    );
+    let run = run_named(&h, "planar-rep1.csv (demo)");
+    let data = run.data().expect("data");
+    let fit = run.fit_view().expect("fit");
+    let rows: Vec<Vec<&str>> = text
+        .lines()
+        .filter(|l| !l.starts_with('#'))
+        .skip(1)
+        .map(|l| l.split(',').collect())
+        .collect();
+    assert_eq!(rows.len(), data.time_s.len());
+    // Every row is the sample, the model at its time and their difference, bit for bit.
+    let k = rows.len() / 2;
+    let num = |s: &str| s.parse::<f64>().expect("a number");
+    assert_eq!(num(rows[k][0]), data.time_s[k]);
+    assert_eq!(num(rows[k][1]), data.current_a[k]);
+    assert_eq!(num(rows[k][2]), fit.result.predict_a(data.time_s[k]));
+    assert_eq!(num(rows[k][3]), fit.residual_a[k]);
+    let inside = rows.iter().filter(|r| r[4] == "1").count();
+    assert_eq!(
+        inside, fit.result.window.points,
+        "the window flag marks the fitted points"
+    );
+
+    // A folder that does not exist: a message, no panic, and the window says where.
+    let bad = dir.path().join("no-such-folder").join("x.csv");
+    save_through_the_window(&mut h, "Data of the run in focus (CSV)", &bad);
+    let n = notice(&h);
+    assert!(n.starts_with("no such folder: "), "{n}");
+    h.get_by_label(&n);
+}
+
+#[test]
+fn a_saved_session_reopens_the_same_inputs_windows_and_results() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    retype(&mut h, "Start (s)", "0.01");
+    settle(&mut h);
+    retype(&mut h, "n (electrons)", "2");
+    settle(&mut h);
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("review.json");
+    save_through_the_window(
+        &mut h,
+        "Session (runs, cell entries, windows; to reopen later)",
+        &path,
+    );
+    let text = std::fs::read_to_string(&path).expect("saved");
+    assert!(text.contains("\"schema\": \"diffusor.session/1\""));
+    let before: Vec<(String, f64, bool)> = h
+        .state()
+        .runs()
+        .iter()
+        .map(|r| (r.name.clone(), d_cm2_s(r), r.selected))
+        .collect();
+
+    // A fresh window with something else open, then the session.
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    h.query_all_by_label("×")
+        .next()
+        .expect("a remove button")
+        .click();
+    settle(&mut h);
+    assert_eq!(h.state().runs().len(), diffusor_gui::demo::FILES.len() - 1);
+    open_session_through_the_window(&mut h, &path);
+    settle(&mut h);
+    assert_eq!(h.state().cell_panel().form.n, "2");
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    assert_eq!(rep1.lo.choice, diffusor_fit::window::BoundChoice::At(0.01));
+    assert!(!rep1.fit_view().expect("fit").result.window.lo.automatic);
+    let after: Vec<(String, f64, bool)> = h
+        .state()
+        .runs()
+        .iter()
+        .map(|r| (r.name.clone(), d_cm2_s(r), r.selected))
+        .collect();
+    // Same files, same entries, same windows: the same numbers, bit for bit.
+    assert_eq!(after, before);
+    assert!(h.state().runs().iter().all(|r| r.notice.is_none()));
+}
+
+#[test]
+fn corrupt_foreign_and_newer_sessions_are_refused_and_change_nothing() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    retype(&mut h, "n (electrons)", "3");
+    settle(&mut h);
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let good = dir.path().join("good.json");
+    save_through_the_window(
+        &mut h,
+        "Session (runs, cell entries, windows; to reopen later)",
+        &good,
+    );
+    let saved = std::fs::read_to_string(&good).expect("saved");
+    retype(&mut h, "n (electrons)", "1");
+    settle(&mut h);
+    let state = |h: &Harness<'_, DiffusorApp>| {
+        (
+            h.state().cell_panel().form.clone(),
+            h.state()
+                .runs()
+                .iter()
+                .map(|r| (r.id, r.name.clone(), r.lo.choice, d_cm2_s(r)))
+                .collect::<Vec<_>>(),
+        )
+    };
+    let before = state(&h);
+    let cases = [
+        (
+            "corrupt.json",
+            saved[..saved.len() / 2].to_owned(),
+            "not a session file: it is not valid JSON",
+        ),
+        (
+            "foreign.json",
+            "{\"schema\": \"diffusor.fit/1\", \"version\": \"0.1.0\", \"runs\": []}".to_owned(),
+            "not a Diffusor session file (its schema is “diffusor.fit/1”",
+        ),
+        (
+            "newer.json",
+            saved.replace("diffusor.session/1", "diffusor.session/2"),
+            "this session was saved by a newer Diffusor (diffusor.session/2",
+        ),
+    ];
+    for (name, text, start) in cases {
+        let p = dir.path().join(name);
+        std::fs::write(&p, text).expect("written");
+        open_session_through_the_window(&mut h, &p);
+        settle(&mut h);
+        let n = notice(&h);
+        assert!(n.starts_with(start), "{name}: {n}");
+        assert!(n.ends_with(". Nothing was changed."), "{n}");
+        h.get_by_label(&n);
+        assert_eq!(state(&h), before, "{name} changed the window");
+    }
+}
+
+#[test]
+fn a_file_changed_since_the_session_loads_with_a_warning() {
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let data = dir.path().join("rep1.csv");
+    std::fs::write(&data, REP1).expect("written");
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&data)));
+    settle(&mut h);
+    let session = dir.path().join("s.json");
+    save_through_the_window(
+        &mut h,
+        "Session (runs, cell entries, windows; to reopen later)",
+        &session,
+    );
+    // The same data with one more comment line: other bytes, another SHA-256.
+    let mut changed = REP1.to_vec();
+    changed.extend_from_slice(b"\n");
+    std::fs::write(&data, changed).expect("rewritten");
+    open_session_through_the_window(&mut h, &session);
+    settle(&mut h);
+    let run = run_named(&h, "rep1.csv");
+    let warning = run.notice.clone().expect("a warning");
+    assert!(
+        warning.starts_with("this file has changed since the session was saved (SHA-256 now "),
+        "{warning}"
+    );
+    assert!(run.fit_view().is_some(), "it still loads and fits");
+    h.get_by_label(&format!("▲ {warning}"));
+}
+
+#[test]
+fn cancelling_a_big_import_leaves_the_window_usable() {
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    // A million rows: long enough to read that the cancel comes first or during the read.
+    let big = dir.path().join("big.csv");
+    let mut text = String::from("time (s),current (A)\n");
+    for k in 1..=1_000_000_u32 {
+        let t = f64::from(k) * 1e-5;
+        text.push_str(&format!("{t:e},{:e}\n", 1e-5 / t.sqrt()));
+    }
+    std::fs::write(&big, text).expect("written");
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&big)));
+    h.step();
+    assert!(h.state().is_busy());
+    h.get_by_role_and_label(Role::Button, "Cancel").click();
+    h.step();
+    assert!(!h.state().is_busy(), "nothing is left running");
+    let cancelled = run_named(&h, "big.csv").error().map(str::to_owned);
+    assert!(
+        cancelled
+            .as_deref()
+            .is_some_and(|e| e.starts_with("reading was cancelled")),
+        "{cancelled:?}"
+    );
+
+    // The window still reads and fits: the worker answers after the cancelled read, so by the
+    // time this file is fitted the late answer for big.csv has come and been dropped.
+    let rep1 = dir.path().join("rep1.csv");
+    std::fs::write(&rep1, REP1).expect("written");
+    retype(&mut h, "Path", &rep1.display().to_string());
+    settle(&mut h);
+    // This window started without the demo, so its cell is empty and the fit gives the slope.
+    let run = run_named(&h, "rep1.csv");
+    assert!(run.fit_view().is_some(), "{:?}", run.error());
+    assert_eq!(run_named(&h, "big.csv").error(), cancelled.as_deref());
+}
+
+#[test]
+fn shortcuts_step_through_runs_and_open_the_export_window() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let ids: Vec<_> = h.state().runs().iter().map(|r| r.id).collect();
+    assert_eq!(h.state().focused().map(|r| r.id), Some(ids[0]));
+    h.key_press_modifiers(Modifiers::ALT, Key::ArrowDown);
+    h.run();
+    assert_eq!(h.state().focused().map(|r| r.id), Some(ids[1]));
+    h.key_press_modifiers(Modifiers::ALT, Key::ArrowUp);
+    h.key_press_modifiers(Modifiers::ALT, Key::ArrowUp);
+    h.run();
+    assert_eq!(
+        h.state().focused().map(|r| r.id),
+        ids.last().copied(),
+        "previous from the first wraps to the last"
+    );
+    h.key_press_modifiers(Modifiers::COMMAND, Key::E);
+    h.run();
+    assert!(h.state().files_window().open);
+    h.get_by_label("Save to");
+    // Ctrl+S with no session file yet asks where, with the session chosen.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::S);
+    h.run();
+    assert_eq!(
+        h.state().files_window().kind,
+        diffusor_gui::files_window::SaveKind::Session
+    );
+}
+
+#[test]
+fn cancelled_fits_are_not_redone_behind_the_users_back() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let generations = |h: &Harness<'_, DiffusorApp>| {
+        h.state()
+            .runs()
+            .iter()
+            .map(|r| r.fit.latest_generation)
+            .collect::<Vec<_>>()
+    };
+    let before = generations(&h);
+    // Ctrl+R queues a fit of every run; the cancel comes before any answer is looked at.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::R);
+    h.step();
+    assert!(h.state().is_busy());
+    h.state_mut().cancel_work();
+    for _ in 0..30 {
+        h.step();
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    assert!(!h.state().is_busy(), "nothing was queued again");
+    // Answers to the cancelled requests, if the worker got to them, were dropped.
+    assert_eq!(generations(&h), before);
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    assert!(
+        rep1.fit.outdated && rep1.fit_view().is_some(),
+        "the old result stays, marked"
+    );
+    let mark = "▲ fit cancelled: this result is from before the last change (Refit updates it)";
+    assert_eq!(
+        h.query_all_by_label(mark).count(),
+        h.state().runs().len(),
+        "every run says so"
+    );
+}
+
+#[test]
+fn columns_named_in_the_window_read_a_file_the_importer_could_not() {
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("swapped.txt");
+    // Headers swapped against the data (a hand-edited export): the column called "time" holds
+    // the current, decreasing, so the importer refuses the file as out of time order.
+    let mut text = String::from("current;time\n");
+    for k in -200..5000_i32 {
+        let t = f64::from(k) * 1e-3;
+        let i = if k <= 0 { 0.0 } else { 1e-5 / t.sqrt() };
+        text.push_str(&format!("{t:.4};{i:.6e}\n").replace('.', ","));
+    }
+    std::fs::write(&path, text).expect("written");
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&path)));
+    settle(&mut h);
+    let e = run_named(&h, "swapped.txt")
+        .error()
+        .expect("unreadable")
+        .to_owned();
+    assert!(!e.contains("--"), "no command-line flag in the window: {e}");
+    retype(&mut h, "Time column", "1");
+    retype(&mut h, "Current column", "2");
+    h.get_by_label("Read again").click();
+    settle(&mut h);
+    let run = run_named(&h, "swapped.txt");
+    assert!(run.fit_view().is_some(), "{:?}", run.error());
+    // The session records the columns, so the file reopens the same way.
+    let (session, _) = h.state().session();
+    assert_eq!(session.runs[0].time_column, "1");
+    assert_eq!(session.runs[0].current_column, "2");
+}
+
+#[test]
+fn the_results_json_is_the_fit_document_with_the_numbers_shown() {
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("results.json");
+    save_through_the_window(&mut h, "Results (JSON, diffusor.fit/1, every run)", &path);
+    let text = std::fs::read_to_string(&path).expect("the JSON exists");
+    let doc: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
+    assert_eq!(doc["schema"], "diffusor.fit/1");
+    let runs = doc["runs"].as_array().expect("runs");
+    assert_eq!(runs.len(), h.state().runs().len());
+    let rep1 = run_named(&h, "planar-rep1.csv (demo)");
+    let first = &runs[0];
+    assert_eq!(first["file"], "planar-rep1.csv (demo)");
+    assert_eq!(
+        first["sha256"].as_str(),
+        rep1.data().and_then(|d| d.sha256.as_deref())
+    );
+    // The document's D is the window's, in cm²/s (up to the last digit of the decimal text).
+    let d = first["D_cm2_s"]["value"].as_f64().expect("D");
+    assert!((d / d_cm2_s(rep1) - 1.0).abs() < 1e-14, "{d}");
+    // The replicate comparison of the report comes with it.
+    assert!(doc["replicates"].is_object());
 }

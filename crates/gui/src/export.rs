@@ -1,0 +1,364 @@
+//! Files written from the window: the HTML report (made by [`diffusor_report::render`], the
+//! same page `diffusor report` writes), the run in focus as CSV with its fit and residuals,
+//! and the atomic write every saved file goes through.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::{SystemTime, UNIX_EPOCH};
+
+use diffusor_fit::cell::Cell;
+use diffusor_fit::planar::PlanarOptions;
+use diffusor_report::json::{RunRecord, document_text, replicates_json};
+use diffusor_report::{Outcome, ReportInput, RunInput, render, replicates};
+
+use crate::runs::{FitView, Run, RunData};
+
+/// What can be exported.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ExportKind {
+    /// The self-contained HTML report of every run.
+    #[default]
+    Report,
+    /// The run in focus: time, current, fitted current, residual and window flag.
+    DataCsv,
+    /// The results of every run as the `diffusor.fit/1` document.
+    ResultsJson,
+}
+
+impl ExportKind {
+    /// Every kind, in the order the export window lists them.
+    pub const ALL: [ExportKind; 3] = [
+        ExportKind::Report,
+        ExportKind::ResultsJson,
+        ExportKind::DataCsv,
+    ];
+
+    /// Its name in the export window.
+    pub fn label(self) -> &'static str {
+        match self {
+            ExportKind::Report => "Report (HTML, every run)",
+            ExportKind::DataCsv => "Data of the run in focus (CSV)",
+            ExportKind::ResultsJson => "Results (JSON, diffusor.fit/1, every run)",
+        }
+    }
+
+    /// The file extension it is written with.
+    pub fn extension(self) -> &'static str {
+        match self {
+            ExportKind::Report => "html",
+            ExportKind::DataCsv => "csv",
+            ExportKind::ResultsJson => "json",
+        }
+    }
+
+    /// A file name to start from.
+    pub fn default_name(self) -> &'static str {
+        match self {
+            ExportKind::Report => "diffusor-report.html",
+            ExportKind::DataCsv => "diffusor-run.csv",
+            ExportKind::ResultsJson => "diffusor-results.json",
+        }
+    }
+}
+
+/// Writes `bytes` to `path` so that a reader never sees half a file: into a temporary file in
+/// the same directory (a rename is atomic only within one file system), flushed to disk, then
+/// renamed over the target.
+///
+/// # Errors
+///
+/// The message to show, ending with the path.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), String> {
+    write_atomic_with(path, |f| f.write_all(bytes))
+}
+
+/// As [`write_atomic`], with the contents streamed by `fill` (a 10-million-row CSV is not
+/// built in memory first).
+///
+/// # Errors
+///
+/// The message to show, ending with the path.
+pub fn write_atomic_with(
+    path: &Path,
+    fill: impl FnOnce(&mut std::io::BufWriter<std::fs::File>) -> std::io::Result<()>,
+) -> Result<(), String> {
+    let shown = path.display();
+    let Some(name) = path.file_name() else {
+        return Err(format!("not a file name: {shown}"));
+    };
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    if !dir.is_dir() {
+        return Err(format!("no such folder: {}", dir.display()));
+    }
+    let tmp = dir.join(format!(
+        ".{}.{}.tmp",
+        name.to_string_lossy(),
+        std::process::id()
+    ));
+    let result = (|| -> std::io::Result<()> {
+        let file = std::fs::File::create(&tmp)?;
+        let mut w = std::io::BufWriter::new(file);
+        fill(&mut w)?;
+        let file = w
+            .into_inner()
+            .map_err(std::io::IntoInnerError::into_error)?;
+        file.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    result.map_err(|e| {
+        // The temporary file is ours; a failure to remove it leaves only a hidden stray file.
+        let _ = std::fs::remove_file(&tmp);
+        format!("cannot write the file ({e}): {shown}")
+    })
+}
+
+/// Makes sure `path` ends in `.ext`, adding it when the name has no extension at all.
+pub fn with_extension(path: &Path, ext: &str) -> PathBuf {
+    if path.extension().is_some() {
+        path.to_path_buf()
+    } else {
+        path.with_extension(ext)
+    }
+}
+
+/// A time since the Unix epoch as `YYYY-MM-DD hh:mm:ss UTC`, by the proleptic Gregorian
+/// calendar (the civil-from-days algorithm of H. Hinnant, "chrono-Compatible Low-Level Date
+/// Algorithms", 2013), as the command line's report prints it.
+pub fn utc_timestamp(seconds: i64) -> String {
+    let days = seconds.div_euclid(86_400);
+    let secs = seconds.rem_euclid(86_400);
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z.rem_euclid(146_097);
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let day = doy - (153 * mp + 2) / 5 + 1;
+    let month = if mp < 10 { mp + 3 } else { mp - 9 };
+    let year = yoe + era * 400 + i64::from(month <= 2);
+    format!(
+        "{year:04}-{month:02}-{day:02} {:02}:{:02}:{:02} UTC",
+        secs / 3600,
+        secs % 3600 / 60,
+        secs % 60
+    )
+}
+
+fn now_utc() -> String {
+    let now = SystemTime::now()
+        .duration_since(UNIX_EPOCH)
+        .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));
+    utc_timestamp(now)
+}
+
+/// The HTML report of `runs` fitted with `cell` and `options` (the per-run windows are in each
+/// result; those set by hand are listed in the report's import notes).
+///
+/// # Errors
+///
+/// When there is nothing to report yet.
+pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result<String, String> {
+    if runs.is_empty() {
+        return Err("no runs to report: open a file first".to_owned());
+    }
+    let mut notes = Vec::new();
+    let mut inputs = Vec::with_capacity(runs.len());
+    for run in runs {
+        for (what, col) in [
+            ("time", &run.columns.time),
+            ("current", &run.columns.current),
+        ] {
+            if !col.trim().is_empty() {
+                notes.push(format!("{}: {what} column given: {}", run.name, col.trim()));
+            }
+        }
+        if let Some(f) = run.fit_view() {
+            let w = &f.result.window;
+            if !(w.lo.automatic && w.hi.automatic) {
+                notes.push(format!(
+                    "{}: window set by hand in the window, {} s to {} s after the step",
+                    run.name,
+                    crate::format::plain(w.lo.time_s, 4),
+                    crate::format::plain(w.hi.time_s, 4)
+                ));
+            }
+        }
+        inputs.push(run_input(run));
+    }
+    let generated = now_utc();
+    // The same document the Results (JSON) export writes, embedded as `diffusor report` does.
+    let results = results_document(runs, &inputs, cell);
+    Ok(render(&ReportInput {
+        version: env!("CARGO_PKG_VERSION"),
+        generated_utc: &generated,
+        cell,
+        options,
+        import_notes: &notes,
+        runs: &inputs,
+        results_json: Some(&results),
+    }))
+}
+
+const NOT_FITTED: &str = "not fitted yet (the export was made while it was being read or fitted)";
+
+/// The `diffusor.fit/1` text of `runs` (with `inputs` their report inputs, for the replicate
+/// comparison the report shows).
+fn results_document(runs: &[Run], inputs: &[RunInput<'_>], cell: &Cell) -> String {
+    let records: Vec<RunRecord<'_>> = runs
+        .iter()
+        .map(|run| RunRecord {
+            file: &run.name,
+            sha256: run.data().and_then(|d| d.sha256.as_deref()),
+            result: match (run.fit_view(), run.error()) {
+                (Some(f), _) => Ok(&f.result),
+                (None, Some(e)) => Err(e),
+                (None, None) => Err(NOT_FITTED),
+            },
+        })
+        .collect();
+    let reps = replicates(inputs).map(|rep| {
+        replicates_json(
+            rep.quantity,
+            rep.unit,
+            rep.summary.as_ref().map_err(String::as_str),
+        )
+    });
+    document_text(env!("CARGO_PKG_VERSION"), &records, cell, reps)
+}
+
+/// The results of `runs` as the `diffusor.fit/1` document (what `diffusor fit --json` writes,
+/// with the replicate comparison of the report), ending with a newline.
+///
+/// # Errors
+///
+/// When there is nothing to report yet.
+pub fn results_json(runs: &[Run], cell: &Cell) -> Result<String, String> {
+    if runs.is_empty() {
+        return Err("no runs to report: open a file first".to_owned());
+    }
+    let inputs: Vec<RunInput<'_>> = runs.iter().map(run_input).collect();
+    Ok(results_document(runs, &inputs, cell) + "\n")
+}
+
+fn run_input(run: &Run) -> RunInput<'_> {
+    let outcome = match (run.data(), run.fit_view(), run.error()) {
+        (Some(d), Some(f), _) => Outcome::Fitted {
+            trace: &d.trace,
+            segment: &d.step,
+            result: &f.result,
+        },
+        (d, _, Some(e)) => Outcome::Failed {
+            trace: d.map(|d| &d.trace),
+            error: e,
+        },
+        (d, _, None) => Outcome::Failed {
+            trace: d.map(|d| &d.trace),
+            error: NOT_FITTED,
+        },
+    };
+    RunInput {
+        label: &run.name,
+        sha256: run.data().and_then(|d| d.sha256.as_deref()),
+        outcome,
+    }
+}
+
+/// Writes the analysed step of `data` with its fit as CSV: a commented preamble (file, hash,
+/// sign, fit), a header with units, then one row per sample after the step.
+///
+/// # Errors
+///
+/// The writer's.
+pub fn write_data_csv(
+    w: &mut impl Write,
+    name: &str,
+    data: &RunData,
+    fit: &FitView,
+) -> std::io::Result<()> {
+    let r = &fit.result;
+    writeln!(w, "# Diffusor {}: {name}", env!("CARGO_PKG_VERSION"))?;
+    if let Some(sha) = &data.sha256 {
+        writeln!(w, "# sha256 of the file: {sha}")?;
+    }
+    writeln!(
+        w,
+        "# time after the step; current with the faradaic sign made positive{}",
+        if data.sign_reversed {
+            " (the file's current was negated)"
+        } else {
+            ""
+        }
+    )?;
+    writeln!(
+        w,
+        "# fit: {}, t0 = {:e} s, window {:e} s to {:e} s",
+        r.model, r.t0.value, r.window.lo.time_s, r.window.hi.time_s
+    )?;
+    writeln!(w, "time_s,current_A,fitted_current_A,residual_A,in_window")?;
+    let (lo, hi) = (r.window.lo.time_s, r.window.hi.time_s);
+    for (k, (&t, &i)) in data.time_s.iter().zip(&data.current_a).enumerate() {
+        let fitted = r.predict_a(t);
+        let residual = fit.residual_a.get(k).copied().unwrap_or(f64::NAN);
+        let inside = u8::from(t >= lo && t <= hi);
+        // A sample at or before the fitted onset has no model value: the cells stay empty.
+        if fitted.is_finite() {
+            writeln!(w, "{t:e},{i:e},{fitted:e},{residual:e},{inside}")?;
+        } else {
+            writeln!(w, "{t:e},{i:e},,,{inside}")?;
+        }
+    }
+    Ok(())
+}
+
+/// Writes the CSV of `run` to `path`.
+///
+/// # Errors
+///
+/// The message to show.
+pub fn export_data_csv(run: &Run, path: &Path) -> Result<(), String> {
+    let (Some(data), Some(fit)) = (run.data(), run.fit_view()) else {
+        return Err(format!(
+            "{} has no fit to export yet: wait for it, or fix what the Runs panel says about it",
+            run.name
+        ));
+    };
+    write_atomic_with(path, |w| write_data_csv(w, &run.name, data, fit))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn an_atomic_write_replaces_the_file_and_leaves_nothing_else() {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let path = dir.path().join("out.txt");
+        write_atomic(&path, b"first").expect("written");
+        write_atomic(&path, b"second").expect("written again");
+        assert_eq!(std::fs::read(&path).expect("read back"), b"second");
+        let names: Vec<_> = std::fs::read_dir(dir.path())
+            .expect("listed")
+            .map(|e| e.expect("entry").file_name())
+            .collect();
+        assert_eq!(names, vec![std::ffi::OsString::from("out.txt")]);
+    }
+
+    #[test]
+    fn writing_into_a_missing_folder_says_which() {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let path = dir.path().join("nope").join("out.txt");
+        let e = write_atomic(&path, b"x").expect_err("no folder");
+        assert!(e.starts_with("no such folder: "), "{e}");
+    }
+
+    #[test]
+    fn timestamps_are_utc_civil_dates() {
+        // 1 700 000 000 s after the epoch is 2023-11-14 22:13:20 UTC (any epoch converter);
+        // 2000-02-29 is day 11 016, a leap day in a century year divisible by 400.
+        assert_eq!(utc_timestamp(1_700_000_000), "2023-11-14 22:13:20 UTC");
+        assert_eq!(utc_timestamp(11_016 * 86_400), "2000-02-29 00:00:00 UTC");
+    }
+}
