@@ -11,7 +11,7 @@ use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, StudentsT};
 
 use crate::FitError;
-use crate::planar::{Estimate, Param};
+use crate::planar::{AnalysisError, Estimate, Param};
 use crate::regression::{NoiseModel, sandwich_covariance};
 use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, Termination, solve};
 
@@ -118,6 +118,20 @@ pub enum ModelError {
     /// The numerical fit failed.
     #[error("the fit failed: {0}")]
     Fit(#[from] FitError),
+    /// The chosen model needs an input that was not given.
+    #[error("the {model} model needs {input}")]
+    MissingInput {
+        /// The model, as the command line names it.
+        model: &'static str,
+        /// What is missing, in words.
+        input: &'static str,
+    },
+    /// The planar Cottrell analysis failed (the message is its own).
+    #[error(transparent)]
+    Analysis(#[from] AnalysisError),
+    /// The automatic window (the planar analysis's rules) could not be set for another model.
+    #[error("the automatic window could not be set ({0}); give both bounds of the window")]
+    Window(AnalysisError),
 }
 
 /// Kinds of model warnings.
