@@ -157,6 +157,8 @@ fn cottrell_with_charging_from_the_first_sample() {
         &ModelInputs::default(),
     )
     .unwrap();
+    // The window starts at the first sample after the importer's onset.
+    assert_eq!(r.t0_s, 0.0);
     assert_eq!(r.window.lo.time_s, trace.time_s[50]);
     recovers("charging D", r.diffusion_m2_s, D_M2_S, 0.01);
     let ModelDetails::Charging(c) = &r.details else {
