@@ -3,6 +3,7 @@
 mod compare;
 mod fit;
 mod inspect;
+mod models;
 mod readme;
 mod report;
 

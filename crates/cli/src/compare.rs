@@ -4,7 +4,7 @@
 use std::fmt::Write as _;
 use std::process::ExitCode;
 
-use diffusor_fit::replicates::{GrubbsOutcome, ReplicateSummary, RunEstimate, summarize};
+use diffusor_fit::replicates::{GrubbsOutcome, ReplicateSummary, RunEstimate, format_p, summarize};
 use diffusor_report::json::replicates_json;
 
 use crate::fit::{self, Run};
@@ -55,9 +55,8 @@ fn estimates(runs: &[Run], t: &Target) -> Vec<RunEstimate> {
 }
 
 pub fn run(args: &fit::Args) -> anyhow::Result<ExitCode> {
-    let cell = args.cell()?;
-    let options = args.options()?;
-    let runs = fit::fit_all(args.files(), args.import(), &cell, &options);
+    let v = fit::Validated::of(args)?;
+    let runs = fit::fit_all(args.files(), args.import(), &v.setup());
     let t = target(&runs);
     let ests = estimates(&runs, &t);
     let summary = summarize(&ests);
@@ -70,7 +69,7 @@ pub fn run(args: &fit::Args) -> anyhow::Result<ExitCode> {
                 .as_ref()
                 .map_err(|_| error.as_deref().unwrap_or_default()),
         );
-        println!("{}", fit::document_text(&runs, &cell, Some(replicates)));
+        println!("{}", fit::document_text(&runs, &v.cell, Some(replicates)));
     } else {
         let mut out = String::new();
         let width = runs
@@ -163,8 +162,12 @@ fn summary_text(out: &mut String, s: &ReplicateSummary, t: &Target) {
             );
             let _ = writeln!(
                 out,
-                "Birge ratio      {:.2} (χ² = {:.3} on {} dof, p = {:.2e}): {}",
-                w.birge_ratio, w.chi_squared, w.dof, w.p_value, w.statement
+                "Birge ratio      {:.2} (χ² = {:.3} on {} dof, {}): {}",
+                w.birge_ratio,
+                w.chi_squared,
+                w.dof,
+                format_p(w.p_value),
+                w.statement
             );
         }
         None => {

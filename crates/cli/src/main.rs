@@ -26,8 +26,8 @@ enum Command {
     /// Show what was found in each file: dialect, columns and units, rows, time span, step
     /// onset, sign, segments, baseline and warnings.
     Inspect(inspect::Args),
-    /// Fit the planar Cottrell model to each file and report D (or n·A·C) with its interval,
-    /// the window and its reasons, the uncertainty budget and warnings.
+    /// Fit a model to each file (planar Cottrell by default; see --model) and report D (or
+    /// n·A·C) with its interval, the window and its reasons, the parameters and warnings.
     Fit(fit::Args),
     /// Fit every file as `fit` does and compare the runs as replicates: mean, SD, RSD, 95 %
     /// interval, weighted mean with the Birge ratio, and Grubbs' outlier test naming the run.

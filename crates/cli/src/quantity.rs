@@ -14,6 +14,8 @@ pub enum Kind {
     Concentration,
     /// Diffusion coefficient; default cm²/s.
     Diffusion,
+    /// Charge; default µC.
+    Charge,
 }
 
 impl Kind {
@@ -64,6 +66,14 @@ impl Kind {
                 ("m2/s", 1.0),
                 ("m²/s", 1.0),
             ],
+            Kind::Charge => &[
+                ("uC", 1e-6),
+                ("µC", 1e-6),
+                ("μC", 1e-6),
+                ("nC", 1e-9),
+                ("mC", 1e-3),
+                ("C", 1.0),
+            ],
         }
     }
 
@@ -73,6 +83,7 @@ impl Kind {
             Kind::Length => "um",
             Kind::Concentration => "mM",
             Kind::Diffusion => "cm2/s",
+            Kind::Charge => "uC",
         }
     }
 
@@ -172,6 +183,10 @@ mod tests {
         assert!(close(m.value, 2.0));
         let m = parse("7.2e-6±0.1e-6", Kind::Diffusion).unwrap();
         assert!(close(m.value, 7.2e-10) && close(m.u, 1e-11));
+        let m = parse("0.12+-0.01", Kind::Charge).unwrap();
+        assert!(close(m.value, 1.2e-7) && close(m.u, 1e-8));
+        let m = parse("2e-7C", Kind::Charge).unwrap();
+        assert!(close(m.value, 2e-7));
     }
 
     #[test]

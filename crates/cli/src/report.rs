@@ -15,7 +15,8 @@ use sha2::{Digest, Sha256};
 use crate::fit::{self, Run};
 use crate::import_args::ImportArgs;
 
-/// Arguments of `report`: those of `fit`, and where to write the page.
+/// Arguments of `report`: those of `fit`, and where to write the page. `--csv` also writes the
+/// per-run CSV of `fit --csv` beside the page (same name, `.csv`).
 // clap names an argument group after the struct; `fit::Args` already has that name.
 #[derive(Debug, clap::Args)]
 #[group(id = "report-args")]
@@ -102,10 +103,9 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
             "--json: report writes HTML (the same results as JSON are embedded in it); use fit --json for JSON alone"
         );
     }
-    let cell = args.fit.cell()?;
-    let options = args.fit.options()?;
+    let v = fit::Validated::of(&args.fit)?;
     let files = args.fit.files();
-    let runs = fit::fit_all(files, args.fit.import(), &cell, &options);
+    let runs = fit::fit_all(files, args.fit.import(), &v.setup());
     let import_options = args.fit.import().options();
     let traces: Vec<Result<Trace, String>> = files
         .par_iter()
@@ -157,7 +157,7 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
             rep.summary.as_ref().map_err(String::as_str),
         )
     });
-    let results = fit::document_text(&runs, &cell, replicates);
+    let results = fit::document_text(&runs, &v.cell, replicates);
     let now = SystemTime::now()
         .duration_since(UNIX_EPOCH)
         .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));
@@ -166,8 +166,9 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
     let page = render(&ReportInput {
         version: env!("CARGO_PKG_VERSION"),
         generated_utc: &generated,
-        cell: &cell,
-        options: &options,
+        cell: &v.cell,
+        options: &v.options,
+        model_inputs: &v.inputs,
         import_notes: &notes,
         runs: &inputs,
         results_json: Some(&results),
@@ -181,6 +182,13 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
         if inputs.len() == 1 { "" } else { "s" },
         page.len() as f64 / 1e6
     );
+    if args.fit.csv_output() {
+        // The same rows `fit --csv` prints, beside the page.
+        let path = args.output.with_extension("csv");
+        std::fs::write(&path, fit::csv(&runs))
+            .with_context(|| format!("cannot write the CSV: {}", path.display()))?;
+        println!("wrote {}: one row per run", path.display());
+    }
     if failed > 0 {
         eprintln!(
             "diffusor: {failed} of {} file{} could not be analysed (the report says why)",

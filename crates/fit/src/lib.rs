@@ -7,7 +7,9 @@
 //!   sensitivity and plain-language warnings. [`cell::Cell`] holds what the user entered.
 //! - [`replicates::summarize`] compares several runs: mean, SD, RSD, t interval, weighted mean
 //!   with the Birge ratio, Grubbs' outlier test.
-//! - [`models`] holds the published current–time laws; [`constants`] CODATA 2018.
+//! - [`models`] holds the published current–time laws; [`analysis::analyze_model`] fits any of
+//!   them to a step over the same windows and returns one [`analysis::ModelResult`] (the planar
+//!   analysis included); [`constants`] CODATA 2018.
 //!
 //! Underneath is a least-squares engine:
 //!
@@ -55,6 +57,7 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod analysis;
 pub mod cell;
 pub mod constants;
 pub mod error;

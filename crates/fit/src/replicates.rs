@@ -405,7 +405,7 @@ fn weighted_mean(values: &[f64], std_errors: &[f64]) -> Result<WeightedMean, Fit
     let external_std_error = (birge_ratio > 1.0).then_some(internal_std_error * birge_ratio);
     let consistent = p_value >= CONSISTENCY_ALPHA;
     let figures = format!(
-        "Birge ratio {birge_ratio:.3}, χ² = {chi_squared:.4} on {dof} degrees of freedom, p = {}",
+        "Birge ratio {birge_ratio:.3}, χ² = {chi_squared:.4} on {dof} degrees of freedom, {}",
         format_p(p_value)
     );
     let statement = match external_std_error {
@@ -485,13 +485,13 @@ fn grubbs_test(runs: &[RunEstimate], mean: f64, sd: f64) -> Result<GrubbsOutcome
     let suspect = &runs[suspect_index];
     let statement = if outlier {
         format!(
-            "run `{}` ({:.6e}) is an outlier by Grubbs' test: G = {statistic:.3} > G_crit = \
+            "run “{}” ({:.6e}) is an outlier by Grubbs' test: G = {statistic:.3} > G_crit = \
              {critical_value:.3} (n = {n}, α = {GRUBBS_ALPHA} two-sided)",
             suspect.label, suspect.value
         )
     } else {
         format!(
-            "no outlier by Grubbs' test: the run farthest from the mean, `{}` ({:.6e}), has G = \
+            "no outlier by Grubbs' test: the run farthest from the mean, “{}” ({:.6e}), has G = \
              {statistic:.3} ≤ G_crit = {critical_value:.3} (n = {n}, α = {GRUBBS_ALPHA} two-sided)",
             suspect.label, suspect.value
         )
@@ -508,13 +508,14 @@ fn grubbs_test(runs: &[RunEstimate], mean: f64, sd: f64) -> Result<GrubbsOutcome
     }))
 }
 
-/// p-values below 0.001 in scientific notation so that tiny ones do not
-/// print as zero.
-fn format_p(p: f64) -> String {
+/// A p-value as a statement reads it: `p = 0.023` to three decimals, and
+/// `p < 0.001` below that, where more digits say nothing a reader can use
+/// (and a p-value that underflows would otherwise print as `0.00e0`).
+pub fn format_p(p: f64) -> String {
     if p < 1e-3 {
-        format!("{p:.2e}")
+        "p < 0.001".to_owned()
     } else {
-        format!("{p:.3}")
+        format!("p = {p:.3}")
     }
 }
 
@@ -765,6 +766,14 @@ mod tests {
             1e-10,
             "ext",
         );
+        // p = 3.7e-44 reads as a bound, not as digits (or as 0.00e0 once it underflows).
+        assert!(
+            w.statement.contains(", p < 0.001 < 0.05)"),
+            "{}",
+            w.statement
+        );
+        assert_eq!(format_p(0.0), "p < 0.001");
+        assert_eq!(format_p(0.0234), "p = 0.023");
         assert!(
             w.statement
                 .starts_with("the 3 runs scatter more than their own standard errors allow"),
@@ -841,7 +850,7 @@ mod tests {
         assert_eq!(g.suspect_label, "electrode B, run 2");
         assert!(
             g.statement.starts_with(
-                "run `electrode B, run 2` (9.000000e-10) is an outlier by Grubbs' test"
+                "run “electrode B, run 2” (9.000000e-10) is an outlier by Grubbs' test"
             ),
             "{}",
             g.statement

@@ -4,7 +4,8 @@
 use std::fmt::Write as _;
 
 use base64::Engine as _;
-use diffusor_fit::planar::{Background, PlanarResult};
+use diffusor_fit::analysis::ModelResult;
+use diffusor_fit::planar::{Background, PlanarResult, WindowResult};
 use diffusor_trace::{Polarity, Segment, Trace};
 
 /// Most rows the embedded CSV holds; longer windows are thinned to every k-th point.
@@ -22,6 +23,33 @@ pub(crate) struct Processed {
     pub window_start: usize,
     /// One past the last index inside the window.
     pub window_end: usize,
+}
+
+/// A fitted curve over a window: what the transient, the residuals and the CSV need of a
+/// result, the planar analysis's or any model's.
+pub(crate) trait Fitted {
+    /// The window, with its bounds' reasons.
+    fn window(&self) -> &WindowResult;
+    /// The fitted current at `t_s` after the step, in A.
+    fn predict_a(&self, t_s: f64) -> f64;
+}
+
+impl Fitted for PlanarResult {
+    fn window(&self) -> &WindowResult {
+        &self.window
+    }
+    fn predict_a(&self, t_s: f64) -> f64 {
+        PlanarResult::predict_a(self, t_s)
+    }
+}
+
+impl Fitted for ModelResult {
+    fn window(&self) -> &WindowResult {
+        &self.window
+    }
+    fn predict_a(&self, t_s: f64) -> f64 {
+        ModelResult::predict_a(self, t_s)
+    }
 }
 
 /// Linear interpolation of a blank, as the fit does it; NaN outside the blank.
@@ -50,7 +78,7 @@ impl Processed {
         trace: &Trace,
         segment: &Segment,
         background: &Background,
-        result: &PlanarResult,
+        result: &dyn Fitted,
     ) -> Processed {
         let sign = segment
             .polarity
@@ -82,8 +110,8 @@ impl Processed {
                 .collect(),
         };
         // The fit's own rule: t ≥ lo and t ≤ hi.
-        let window_start = time_s.partition_point(|&t| t < result.window.lo.time_s);
-        let window_end = time_s.partition_point(|&t| t <= result.window.hi.time_s);
+        let window_start = time_s.partition_point(|&t| t < result.window().lo.time_s);
+        let window_end = time_s.partition_point(|&t| t <= result.window().hi.time_s);
         Processed {
             time_s,
             current_a,
@@ -132,7 +160,7 @@ pub(crate) struct WindowCsv {
 
 /// The window as CSV: time after the step, current, fitted current and residual, all SI, with
 /// every value written in the shortest form that reads back to the same double.
-pub(crate) fn window_csv(data: &Processed, result: &PlanarResult) -> WindowCsv {
+pub(crate) fn window_csv(data: &Processed, result: &dyn Fitted) -> WindowCsv {
     let window = data.window();
     let n = window.len();
     // Even thinning keeps the sampling regular, which a refit elsewhere assumes; min/max

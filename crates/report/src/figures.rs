@@ -4,7 +4,7 @@ use diffusor_fit::planar::{PlanarResult, Sensitivity, SensitivityPoint};
 use diffusor_fit::window::BoundReason;
 
 use crate::Replicates;
-use crate::data::Processed;
+use crate::data::{Fitted, Processed};
 use crate::fmt::{Display, display_of};
 use crate::svg::{Axis, Key, Layer, Look, Plot, Shape, padded_range};
 use crate::ticks::{Tick, UnitStyle};
@@ -49,7 +49,8 @@ fn log_space(a: f64, b: f64, count: usize) -> Vec<f64> {
 pub(crate) fn transient(
     id: &str,
     data: &Processed,
-    result: &PlanarResult,
+    result: &dyn Fitted,
+    fit_label: &str,
 ) -> Option<(Plot, usize)> {
     let points: Vec<(f64, f64)> = data
         .time_s
@@ -60,11 +61,12 @@ pub(crate) fn transient(
     let hidden = data.current_a.iter().filter(|i| !(**i > 0.0)).count();
     let x = padded_range(data.time_s.iter().copied(), true)?;
     let y = padded_range(points.iter().map(|p| p.1), true)?;
-    let (lo, hi) = (result.window.lo.time_s, result.window.hi.time_s);
+    let window = result.window();
+    let (lo, hi) = (window.lo.time_s, window.hi.time_s);
     let mut layers = Vec::new();
     let mut legend = vec![Key::line(Look::Trace, "measured")];
     let mut shaded = false;
-    if let Some(label) = before_label(&result.window.lo.reason) {
+    if let Some(label) = before_label(&window.lo.reason) {
         // A decaying transient is high at the start: the label goes below it there.
         layers.push(Layer::Span {
             x0: x.0,
@@ -74,7 +76,7 @@ pub(crate) fn transient(
         });
         shaded = true;
     }
-    if let Some(label) = after_label(&result.window.hi.reason) {
+    if let Some(label) = after_label(&window.hi.reason) {
         layers.push(Layer::Span {
             x0: hi,
             x1: x.1,
@@ -95,7 +97,7 @@ pub(crate) fn transient(
         points: fit,
         look: Look::Fit,
     });
-    legend.push(Key::line(Look::Fit, "Cottrell fit over the window"));
+    legend.push(Key::line(Look::Fit, fit_label));
     if shaded {
         legend.push(Key::line(Look::Excluded, "left out of the fit"));
     }
@@ -160,7 +162,12 @@ pub(crate) fn cottrell(id: &str, data: &Processed, result: &PlanarResult) -> Opt
 }
 
 /// Residuals against time over the window, with zero and ±2 residual SD.
-pub(crate) fn residuals(id: &str, data: &Processed, result: &PlanarResult) -> Option<Plot> {
+pub(crate) fn residuals(
+    id: &str,
+    data: &Processed,
+    result: &dyn Fitted,
+    residual_sd_a: f64,
+) -> Option<Plot> {
     let points: Vec<(f64, f64)> = data
         .window()
         .map(|i| {
@@ -169,7 +176,7 @@ pub(crate) fn residuals(id: &str, data: &Processed, result: &PlanarResult) -> Op
         })
         .collect();
     let x = padded_range(points.iter().map(|p| p.0), true)?;
-    let sd = result.diagnostics.residual_sd_a;
+    let sd = residual_sd_a;
     let extent = points
         .iter()
         .map(|p| p.1.abs())

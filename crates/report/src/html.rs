@@ -2,7 +2,10 @@
 //! escapes it; the only unescaped insertions are the stylesheet (a constant of this crate) and
 //! the SVG this crate draws (itself built with maud).
 
+use diffusor_fit::analysis::{ModelInputs, ModelKind, ModelResult};
 use diffusor_fit::cell::{Cell, Geometry, Measured};
+use diffusor_fit::models::kinetics::BackReaction;
+use diffusor_fit::models::microdisk::DiskExpression;
 use diffusor_fit::planar::{Background, PlanarOptions, PlanarResult};
 use diffusor_fit::replicates::{GrubbsOutcome, ReplicateSummary};
 use diffusor_fit::window::BoundChoice;
@@ -104,15 +107,41 @@ fn base_name(label: &str) -> &str {
     label.rsplit(['/', '\\']).next().unwrap_or(label)
 }
 
+/// The models the fitted runs used, in order of first use.
+fn models_used(runs: &[RunInput<'_>]) -> Vec<&'static str> {
+    let mut out: Vec<&'static str> = Vec::new();
+    for r in runs {
+        if let Outcome::Fitted { result, .. } = r.outcome
+            && !out.contains(&result.model.name())
+        {
+            out.push(result.model.name());
+        }
+    }
+    out
+}
+
 fn what_was_done(input: &ReportInput<'_>, fitted: usize) -> String {
-    let inverse = input.cell.known_d_m2_s.is_some();
+    let models = models_used(input.runs);
+    let planar_only = models.iter().all(|m| *m == ModelKind::Cottrell.name());
+    let inverse = input.cell.known_d_m2_s.is_some() && planar_only;
     let target = if inverse {
         "n·A·C (and, with a concentration, the electroactive area) from the entered diffusion coefficient"
     } else {
         "the diffusion coefficient D from the slope, the entered area, concentration and n"
     };
+    let how = if planar_only {
+        format!(
+            "analysed as planar semi-infinite diffusion: the current was fitted with the Cottrell equation over a window chosen to leave out double-layer charging and late departures such as natural convection, and {target} was derived with its uncertainty"
+        )
+    } else {
+        format!(
+            "fitted with the {} model{} (equation, source and range of validity in each run's section) over a window chosen to leave out double-layer charging, and the diffusion coefficient D was derived with its uncertainty",
+            models.join(", "),
+            plural(models.len())
+        )
+    };
     format!(
-        "The first potential step of each of {} file{} was analysed as planar semi-infinite diffusion: the current was fitted with the Cottrell equation over a window chosen to leave out double-layer charging and late departures such as natural convection, and {target} was derived with its uncertainty. {} of {} run{} gave a result.",
+        "The first potential step of each of {} file{} was {how}. {} of {} run{} gave a result.",
         input.runs.len(),
         plural(input.runs.len()),
         fitted,
@@ -123,19 +152,35 @@ fn what_was_done(input: &ReportInput<'_>, fitted: usize) -> String {
 
 /// The headline quantity of a result with its display unit: (name, estimate, SI unit).
 fn headline(
-    r: &PlanarResult,
+    r: &ModelResult,
 ) -> Option<(&'static str, diffusor_fit::planar::Estimate, &'static str)> {
-    if let Some(d) = r.diffusion_m2_s {
-        return Some(("D", d, "m²/s"));
-    }
-    if let Some(a) = r.area_m2 {
-        return Some(("A", a, "m²"));
-    }
-    r.nac_mol_m.map(|e| ("n·A·C", e, "mol/m"))
+    headline_of(r.diffusion_m2_s, r.area_m2, r.nac_mol_m)
 }
 
-fn expanded(r: &PlanarResult) -> Option<String> {
-    r.budget
+/// [`headline`] of the planar analysis.
+fn planar_headline(
+    r: &PlanarResult,
+) -> Option<(&'static str, diffusor_fit::planar::Estimate, &'static str)> {
+    headline_of(r.diffusion_m2_s, r.area_m2, r.nac_mol_m)
+}
+
+fn headline_of(
+    d: Option<diffusor_fit::planar::Estimate>,
+    area: Option<diffusor_fit::planar::Estimate>,
+    nac: Option<diffusor_fit::planar::Estimate>,
+) -> Option<(&'static str, diffusor_fit::planar::Estimate, &'static str)> {
+    if let Some(d) = d {
+        return Some(("D", d, "m²/s"));
+    }
+    if let Some(a) = area {
+        return Some(("A", a, "m²"));
+    }
+    nac.map(|e| ("n·A·C", e, "mol/m"))
+}
+
+fn expanded(r: &ModelResult) -> Option<String> {
+    r.planar()?
+        .budget
         .as_ref()
         .map(|b| quantity(b.expanded_uncertainty, b.unit, 2))
 }
@@ -240,6 +285,59 @@ fn bound_rule(choice: BoundChoice, lower: bool, o: &PlanarOptions) -> String {
     }
 }
 
+/// The models' extra inputs that the fitted runs used, in words.
+fn model_input_rows(m: &ModelInputs, runs: &[RunInput<'_>]) -> Vec<(&'static str, String)> {
+    let used = models_used(runs);
+    let uses = |k: ModelKind| used.contains(&k.name());
+    let mut rows = Vec::new();
+    if uses(ModelKind::Microdisk) {
+        rows.push((
+            "disk expression",
+            match m.disk_expression {
+                DiskExpression::MahonOldham => "Mahon–Oldham (2005)".to_owned(),
+                DiskExpression::ShoupSzabo => "Shoup–Szabo (1982)".to_owned(),
+            },
+        ));
+    }
+    if uses(ModelKind::Slab)
+        && let Some(l) = m.thickness_m
+    {
+        rows.push(("film thickness L", si(l, "m", 4)));
+    }
+    if uses(ModelKind::Kinetic) {
+        rows.push((
+            "back reaction",
+            match m.back_reaction {
+                Some(BackReaction::Irreversible) | None => {
+                    "none (irreversible at this potential)".to_owned()
+                }
+                Some(BackReaction::QuasiReversible {
+                    kb_over_kf,
+                    dr_over_do,
+                }) => format!("kb/kf = {kb_over_kf}, D_R/D_O = {dr_over_do}"),
+            },
+        ));
+    }
+    if uses(ModelKind::CottrellCharging) {
+        rows.push((
+            "step height ΔE",
+            m.step_v
+                .map_or("from the file's potential column".to_owned(), |v| {
+                    si(v, "V", 4)
+                }),
+        ));
+    }
+    if (uses(ModelKind::Anson) || uses(ModelKind::DoubleStep))
+        && let Some(q) = m.double_layer_charge_c
+    {
+        rows.push((
+            "double-layer charge Q_dl",
+            format!("{} ± {}", si(q.value, "C", 4), si(q.u, "C", 2)),
+        ));
+    }
+    rows
+}
+
 fn background_rule(b: &Background) -> String {
     match b {
         Background::None => "none subtracted".to_owned(),
@@ -296,7 +394,14 @@ fn inputs_section(input: &ReportInput<'_>) -> Markup {
                     h3 { "Model and window rules" }
                     dl.rules {
                         dt { "model" }
-                        dd { "planar Cottrell, I = n·F·A·C·√D / √(π·(t − t0)) + b (F. G. Cottrell, Z. Phys. Chem. 42 (1903) 385); F = 96 485.332 12 C/mol (CODATA 2018)" }
+                        @if models_used(input.runs).iter().all(|m| *m == ModelKind::Cottrell.name()) {
+                            dd { "planar Cottrell, I = n·F·A·C·√D / √(π·(t − t0)) + b (F. G. Cottrell, Z. Phys. Chem. 42 (1903) 385); F = 96 485.332 12 C/mol (CODATA 2018)" }
+                        } @else {
+                            dd { (models_used(input.runs).join(", ")) "; each run's section gives the equation, its source and its range of validity; F = 96 485.332 12 C/mol (CODATA 2018)" }
+                        }
+                        @for (name, value) in model_input_rows(input.model_inputs, input.runs) {
+                            dt { (name) } dd { (value) }
+                        }
                         dt { "window start" } dd { (bound_rule(o.window.lo, true, o)) }
                         dt { "window end" } dd { (bound_rule(o.window.hi, false, o)) }
                         dt { "fewest points" } dd { (o.window.min_points) " in the window" }
@@ -632,7 +737,7 @@ fn params_table(r: &PlanarResult) -> Markup {
                         td { (quantity_interval(p.estimate.ci95[0], p.estimate.ci95[1], p.estimate.value, p.estimate.std_error, p.unit)) }
                     }
                 }
-                @if let Some((name, e, unit)) = headline(r) {
+                @if let Some((name, e, unit)) = planar_headline(r) {
                     tr.derived {
                         td { "derived: " (match name { "D" => "diffusion coefficient", "A" => "electroactive area", _ => "n·A·C" }) }
                         td { (name) }
@@ -735,92 +840,245 @@ fn run_section(k: usize, run: &RunInput<'_>, options: &PlanarOptions) -> Markup 
             trace,
             segment,
             result,
-        } => {
-            let data = Processed::new(trace, segment, &options.background, result);
-            let check = (data.residual_sd(result), result.diagnostics.residual_sd_a);
-            let csv = window_csv(&data, result);
-            let transient = figures::transient(&id, &data, result);
-            let hidden = transient.as_ref().map_or(0, |t| t.1);
-            let z = options.window.departure_z;
-            html! {
-                section.run id=(id) {
-                    h2 { "Run " (k) " · " span.file { (base_name(run.label)) } }
-                    @if let Some((name, e, unit)) = headline(result) {
-                        p.answer {
-                            (name) " = " strong { (quantity_with_se(e.value, e.std_error, unit)) }
-                            " (fit), 95 % interval " (quantity_interval(e.ci95[0], e.ci95[1], e.value, e.std_error, unit))
-                            @if let Some(u) = expanded(result) { "; expanded uncertainty with the inputs U = " (u) " (k = 2)" }
+        } => match result.planar() {
+            Some(planar) => planar_section(k, &id, run, (trace, segment), result, planar, options),
+            None => model_section(k, &id, run, (trace, segment), result, options),
+        },
+    }
+}
+
+/// A Cottrell run: the whole planar analysis.
+fn planar_section(
+    k: usize,
+    id: &str,
+    run: &RunInput<'_>,
+    (trace, segment): (&Trace, &diffusor_trace::Segment),
+    m: &ModelResult,
+    result: &PlanarResult,
+    options: &PlanarOptions,
+) -> Markup {
+    let id = id.to_owned();
+    let data = Processed::new(trace, segment, &options.background, result);
+    let check = (data.residual_sd(result), result.diagnostics.residual_sd_a);
+    let csv = window_csv(&data, result);
+    let transient = figures::transient(&id, &data, result, "Cottrell fit over the window");
+    let hidden = transient.as_ref().map_or(0, |t| t.1);
+    let z = options.window.departure_z;
+    html! {
+        section.run id=(id) {
+            h2 { "Run " (k) " · " span.file { (base_name(run.label)) } }
+            @if let Some((name, e, unit)) = headline(m) {
+                p.answer {
+                    (name) " = " strong { (quantity_with_se(e.value, e.std_error, unit)) }
+                    " (fit), 95 % interval " (quantity_interval(e.ci95[0], e.ci95[1], e.value, e.std_error, unit))
+                    @if let Some(u) = expanded(m) { "; expanded uncertainty with the inputs U = " (u) " (k = 2)" }
+                }
+            }
+            (identity(run))
+            h3 { "Processing log" }
+            (processing_log(trace, Some(segment), Some(result), Some(check)))
+            h3 { "Window" }
+            dl.rules {
+                dt { "from" } dd { (si(result.window.lo.time_s, "s", 4)) ": " (result.window.lo.description) }
+                dt { "to" } dd { (si(result.window.hi.time_s, "s", 4)) ": " (result.window.hi.description) }
+                dt { "points" } dd { (result.window.points) }
+                @if let Some(c) = &result.charging {
+                    dt { "charging" } dd {
+                        "τ = " (si(c.tau_s, "s", 3))
+                        @if let Some(se) = c.tau_std_error_s { " ± " (si(se, "s", 2)) }
+                        @if let Some(a) = c.amplitude_a { ", amplitude " (si(a, "A", 3)) }
+                        @if c.fitted { " (exponential plus Cottrell fitted to the first " (c.points) " points)" } @else { " (from the entered Ru and Cdl)" }
+                    }
+                }
+                dt { "plateau test" } dd { (result.plateau.criterion) }
+            }
+            h3 { "Figures" }
+            div.figures {
+                (figure(&format!("{k}.1"), transient.map(|t| t.0.render()), &html! {
+                    "The transient on logarithmic axes. Shaded: the parts left out of the fit, with the reason; the dark line is the fit over the window."
+                    @if hidden > 0 { " " (hidden) " samples with zero or negative current cannot be shown on the log axis." }
+                }))
+                (figure(&format!("{k}.2"), figures::cottrell(&id, &data, result).map(|p| p.render()), &html! {
+                    "Cottrell plot over the window, with the fitted line drawn from the origin of the axis; the intercept is the background b. The onset t0 is the fitted one."
+                }))
+                (figure(&format!("{k}.3"), figures::residuals(&id, &data, result, result.diagnostics.residual_sd_a).map(|p| p.render()), &html! {
+                    "Residuals over the window. Structure here (a trend, waves, steps) means the model or the window does not suit the data, whatever the intervals say."
+                }))
+                (figure(&format!("{k}.4"), figures::plateau(&id, &data, result, z).map(|p| p.render()), &html! {
+                    "I·√(t − t0) on a log-time axis: flat for Cottrell behaviour. Bin means (10 per decade, ± 1 standard error) are those of the window-end test, computed with the provisional onset; open squares are bins more than " (z) " SE from the plateau fitted to the bins before them."
+                }))
+                (figure(&format!("{k}.5"), figures::sensitivity(&id, result, false).map(|p| p.render()), &html! {
+                    "The result refitted with the window's lower bound moved and the upper bound held (± 1 SE, without the autocorrelation correction)."
+                }))
+                (figure(&format!("{k}.6"), figures::sensitivity(&id, result, true).map(|p| p.render()), &html! {
+                    "The result refitted with the upper bound moved and the lower bound held. A plateau around the bound used means the result does not hinge on it."
+                    @if let Some(s) = &result.sensitivity { " (" (s.note) ".)" }
+                }))
+            }
+            h3 { "Model" }
+            p { code { (result.equation) } " — " (result.source) ". Geometry: " (result.geometry.name()) "; " (result.mode) " mode." }
+            h3 { "Fitted parameters" }
+            (params_table(result))
+            h3 { "Uncertainty budget" }
+            (budget_table(result))
+            h3 { "Fit quality" }
+            (quality(result))
+            h3 { "Warnings" }
+            @if result.warnings.is_empty() {
+                p.muted { "None from the fit." }
+            } @else {
+                ul.warnings { @for w in &result.warnings { li { (w.message) } } }
+            }
+            h3 { "Data" }
+            p {
+                a.download download={ (safe_file_name(run.label)) "-window.csv" } href=(data_url("text/csv", &csv.text)) {
+                    "Download the fitted data (CSV, " (csv.rows) " rows)"
+                }
+                ". Columns: time after the importer's onset (s), current as fitted (A, faradaic direction positive, background removed), fitted current and residual (A), for the window "
+                (si(result.window.lo.time_s, "s", 4)) " to " (si(result.window.hi.time_s, "s", 4)) ". "
+                @if csv.stride > 1 {
+                    "The window holds " (csv.window_points) " points; to keep the file small every " (csv.stride) "th was written."
+                } @else {
+                    "Every point of the window is included."
+                }
+                " The fitted current uses t0 = " (si(result.t0.value, "s", 6)) "."
+            }
+        }
+    }
+}
+
+/// The parameters of any model, with their correlations.
+fn model_params_table(r: &ModelResult) -> Markup {
+    html! {
+        table.grid {
+            thead { tr { th { "parameter" } th { "symbol" } th { "value ± standard error" } th { "95 % interval" } } }
+            tbody {
+                @for p in &r.params {
+                    tr {
+                        td { (p.name) }
+                        td { (p.symbol) }
+                        td { (quantity_with_se(p.estimate.value, p.estimate.std_error, p.unit)) }
+                        td { (quantity_interval(p.estimate.ci95[0], p.estimate.ci95[1], p.estimate.value, p.estimate.std_error, p.unit)) }
+                    }
+                }
+            }
+        }
+        @if r.correlations.len() > 1 {
+            p.muted {
+                "Correlations of the fitted parameters: "
+                @for i in 0..r.correlations.len() {
+                    @for j in (i + 1)..r.correlations.len() {
+                        @if let (Some(a), Some(b)) = (r.params.get(i), r.params.get(j)) {
+                            "r(" (a.symbol) ", " (b.symbol) ") = " (format!("{:.3}", r.correlations[i][j])) "; "
                         }
                     }
-                    (identity(run))
-                    h3 { "Processing log" }
-                    (processing_log(trace, Some(segment), Some(result), Some(check)))
-                    h3 { "Window" }
-                    dl.rules {
-                        dt { "from" } dd { (si(result.window.lo.time_s, "s", 4)) ": " (result.window.lo.description) }
-                        dt { "to" } dd { (si(result.window.hi.time_s, "s", 4)) ": " (result.window.hi.description) }
-                        dt { "points" } dd { (result.window.points) }
-                        @if let Some(c) = &result.charging {
-                            dt { "charging" } dd {
-                                "τ = " (si(c.tau_s, "s", 3))
-                                @if let Some(se) = c.tau_std_error_s { " ± " (si(se, "s", 2)) }
-                                @if let Some(a) = c.amplitude_a { ", amplitude " (si(a, "A", 3)) }
-                                @if c.fitted { " (exponential plus Cottrell fitted to the first " (c.points) " points)" } @else { " (from the entered Ru and Cdl)" }
-                            }
-                        }
-                        dt { "plateau test" } dd { (result.plateau.criterion) }
+                }
+                "derived parameters follow from them; intervals are from the fit alone."
+            }
+        }
+    }
+}
+
+/// A run fitted with a model other than Cottrell's: its answer, window, transient with the
+/// fitted curve, residuals, the model with its source and validity, parameters, fit quality
+/// and warnings.
+fn model_section(
+    k: usize,
+    id: &str,
+    run: &RunInput<'_>,
+    (trace, segment): (&Trace, &diffusor_trace::Segment),
+    m: &ModelResult,
+    options: &PlanarOptions,
+) -> Markup {
+    let data = Processed::new(trace, segment, &options.background, m);
+    let csv = window_csv(&data, m);
+    let label = format!("{} fit over the window", m.model.name());
+    let transient = figures::transient(id, &data, m, &label);
+    let hidden = transient.as_ref().map_or(0, |t| t.1);
+    let current = m.fitted_quantity == "current";
+    let (sd_unit, sd_what) = if current {
+        ("A", "current")
+    } else {
+        ("C", "charge")
+    };
+    html! {
+        section.run id=(id) {
+            h2 { "Run " (k) " · " span.file { (base_name(run.label)) } }
+            @if let Some((name, e, unit)) = headline(m) {
+                p.answer {
+                    (name) " = " strong { (quantity_with_se(e.value, e.std_error, unit)) }
+                    " (fit), 95 % interval " (quantity_interval(e.ci95[0], e.ci95[1], e.value, e.std_error, unit))
+                    @if let Some(c) = m.conc_mol_m3 {
+                        "; C = " (quantity_with_se(c.value, c.std_error, "mol/m³"))
                     }
-                    h3 { "Figures" }
-                    div.figures {
-                        (figure(&format!("{k}.1"), transient.map(|t| t.0.render()), &html! {
-                            "The transient on logarithmic axes. Shaded: the parts left out of the fit, with the reason; the dark line is the fit over the window."
-                            @if hidden > 0 { " " (hidden) " samples with zero or negative current cannot be shown on the log axis." }
-                        }))
-                        (figure(&format!("{k}.2"), figures::cottrell(&id, &data, result).map(|p| p.render()), &html! {
-                            "Cottrell plot over the window, with the fitted line drawn from the origin of the axis; the intercept is the background b. The onset t0 is the fitted one."
-                        }))
-                        (figure(&format!("{k}.3"), figures::residuals(&id, &data, result).map(|p| p.render()), &html! {
-                            "Residuals over the window. Structure here (a trend, waves, steps) means the model or the window does not suit the data, whatever the intervals say."
-                        }))
-                        (figure(&format!("{k}.4"), figures::plateau(&id, &data, result, z).map(|p| p.render()), &html! {
-                            "I·√(t − t0) on a log-time axis: flat for Cottrell behaviour. Bin means (10 per decade, ± 1 standard error) are those of the window-end test, computed with the provisional onset; open squares are bins more than " (z) " SE from the plateau fitted to the bins before them."
-                        }))
-                        (figure(&format!("{k}.5"), figures::sensitivity(&id, result, false).map(|p| p.render()), &html! {
-                            "The result refitted with the window's lower bound moved and the upper bound held (± 1 SE, without the autocorrelation correction)."
-                        }))
-                        (figure(&format!("{k}.6"), figures::sensitivity(&id, result, true).map(|p| p.render()), &html! {
-                            "The result refitted with the upper bound moved and the lower bound held. A plateau around the bound used means the result does not hinge on it."
-                            @if let Some(s) = &result.sensitivity { " (" (s.note) ".)" }
-                        }))
-                    }
-                    h3 { "Model" }
-                    p { code { (result.equation) } " — " (result.source) ". Geometry: " (result.geometry.name()) "; " (result.mode) " mode." }
-                    h3 { "Fitted parameters" }
-                    (params_table(result))
-                    h3 { "Uncertainty budget" }
-                    (budget_table(result))
-                    h3 { "Fit quality" }
-                    (quality(result))
-                    h3 { "Warnings" }
-                    @if result.warnings.is_empty() {
-                        p.muted { "None from the fit." }
-                    } @else {
-                        ul.warnings { @for w in &result.warnings { li { (w.message) } } }
-                    }
-                    h3 { "Data" }
-                    p {
-                        a.download download={ (safe_file_name(run.label)) "-window.csv" } href=(data_url("text/csv", &csv.text)) {
-                            "Download the fitted data (CSV, " (csv.rows) " rows)"
-                        }
-                        ". Columns: time after the importer's onset (s), current as fitted (A, faradaic direction positive, background removed), fitted current and residual (A), for the window "
-                        (si(result.window.lo.time_s, "s", 4)) " to " (si(result.window.hi.time_s, "s", 4)) ". "
-                        @if csv.stride > 1 {
-                            "The window holds " (csv.window_points) " points; to keep the file small every " (csv.stride) "th was written."
-                        } @else {
-                            "Every point of the window is included."
-                        }
-                        " The fitted current uses t0 = " (si(result.t0.value, "s", 6)) "."
-                    }
+                }
+            }
+            (identity(run))
+            h3 { "Processing log" }
+            (processing_log(trace, Some(segment), None, None))
+            h3 { "Window" }
+            dl.rules {
+                dt { "from" } dd { (si(m.window.lo.time_s, "s", 4)) ": " (m.window.lo.description) }
+                dt { "to" } dd { (si(m.window.hi.time_s, "s", 4)) ": " (m.window.hi.description) }
+                dt { "points" } dd { (m.points) }
+                dt { "background" } dd { (m.background) }
+                dt { "onset" } dd { "the importer's (t0 is refined only by the Cottrell analysis)" }
+            }
+            h3 { "Model" }
+            dl.rules {
+                dt { "model" } dd { (m.model.name()) " (" (m.variant) ")" }
+                dt { "equation" } dd { code { (m.equation) } }
+                dt { "source" } dd { (m.source) }
+                dt { "valid for" } dd { (m.validity) }
+                dt { "these data" } dd {
+                    @if m.in_validity_range { "inside that range: " } @else { strong { "outside that range: " } }
+                    (m.validity_check)
+                }
+                dt { "why this model" } dd { (m.choice.reason) }
+            }
+            h3 { "Figures" }
+            div.figures {
+                (figure(&format!("{k}.1"), transient.map(|t| t.0.render()), &html! {
+                    "The transient on logarithmic axes. Shaded: the parts left out of the fit, with the reason; the dark line is the " (m.model.name()) " model with the fitted parameters over the window."
+                    @if !current { " The Anson fit is to the charge; the line is the current its charge line implies, m/(2√t)." }
+                    @if hidden > 0 { " " (hidden) " samples with zero or negative current cannot be shown on the log axis." }
+                }))
+                @if current {
+                    (figure(&format!("{k}.2"), figures::residuals(id, &data, m, m.residual_sd).map(|p| p.render()), &html! {
+                        "Residuals over the window. Structure here (a trend, waves, steps) means the model or the window does not suit the data, whatever the intervals say."
+                    }))
+                }
+            }
+            h3 { "Fitted parameters" }
+            (model_params_table(m))
+            p.muted { "No uncertainty budget for this model: the intervals are the fit's; the entered inputs' own uncertainties are not propagated." }
+            h3 { "Fit quality" }
+            dl.rules {
+                dt { "R²" } dd { (format!("{:.7}", m.r2)) " (of the " (sd_what) ")" }
+                dt { "residual SD" } dd { (si(m.residual_sd, sd_unit, 3)) }
+                dt { "degrees of freedom" } dd { (format!("{:.0}", m.degrees_of_freedom)) " (effective points less parameters, for Student's t)" }
+                dt { "solver" } dd {
+                    @if m.iterations == 0 { "closed-form lines" } @else { (m.iterations) " Levenberg–Marquardt iterations" }
+                    @if m.converged { ", converged" } @else { ", not converged" }
+                }
+            }
+            h3 { "Warnings" }
+            @if m.warnings.is_empty() {
+                p.muted { "None from the fit." }
+            } @else {
+                ul.warnings { @for w in &m.warnings { li { (w) } } }
+            }
+            h3 { "Data" }
+            p {
+                a.download download={ (safe_file_name(run.label)) "-window.csv" } href=(data_url("text/csv", &csv.text)) {
+                    "Download the fitted data (CSV, " (csv.rows) " rows)"
+                }
+                ". Columns: time after the importer's onset (s), current as fitted (A, faradaic direction positive, background removed), fitted current and residual (A), for the window "
+                (si(m.window.lo.time_s, "s", 4)) " to " (si(m.window.hi.time_s, "s", 4)) ". "
+                @if csv.stride > 1 {
+                    "The window holds " (csv.window_points) " points; to keep the file small every " (csv.stride) "th was written."
+                } @else {
+                    "Every point of the window is included."
                 }
             }
         }

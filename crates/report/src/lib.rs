@@ -2,8 +2,10 @@
 //! browser, offline, and print to paper or PDF.
 //!
 //! [`render`] turns a [`ReportInput`] — the cell as entered, the fit options, and for each run
-//! its [`Trace`], the analysed [`Segment`] and the [`PlanarResult`] (or why it failed) — into
-//! the page. It is pure: no files, no clock, no network; the caller passes the date and the
+//! its [`Trace`], the analysed [`Segment`] and the [`ModelResult`] (or why it failed) — into
+//! the page. A Cottrell run shows the whole planar analysis (Cottrell plot, I·√t, window
+//! sensitivity, budget); any other model shows its equation, source, validity, parameters and
+//! its fitted curve on the transient. It is pure: no files, no clock, no network; the caller passes the date and the
 //! program version in, so the command line and the desktop window produce the same page.
 //!
 //! The page makes no network requests of any kind: the stylesheet is inline, the plots are
@@ -15,8 +17,9 @@
 //! that the command line prints and the page embeds.
 //!
 //! ```
+//! use diffusor_fit::analysis::{ModelInputs, analyze_model};
 //! use diffusor_fit::cell::{Cell, Measured};
-//! use diffusor_fit::planar::{PlanarOptions, analyze};
+//! use diffusor_fit::planar::PlanarOptions;
 //! use diffusor_report::{Outcome, ReportInput, RunInput, render};
 //! use diffusor_trace::{ImportOptions, import_bytes};
 //!
@@ -35,7 +38,9 @@
 //!     ..Cell::default()
 //! };
 //! let options = PlanarOptions::default();
-//! let result = analyze(&trace, &step, &cell, &options).expect("fits");
+//! let inputs = ModelInputs::default();
+//! // No model named: the planar electrode's default, Cottrell.
+//! let result = analyze_model(&trace, &step, &cell, &options, None, &inputs).expect("fits");
 //! let runs = [RunInput {
 //!     label: "example.csv",
 //!     sha256: None,
@@ -46,6 +51,7 @@
 //!     generated_utc: "2026-01-01 00:00:00 UTC",
 //!     cell: &cell,
 //!     options: &options,
+//!     model_inputs: &inputs,
 //!     import_notes: &[],
 //!     runs: &runs,
 //!     results_json: None,
@@ -69,8 +75,9 @@ mod ticks;
 #[cfg(test)]
 mod tests;
 
+use diffusor_fit::analysis::{ModelInputs, ModelResult};
 use diffusor_fit::cell::Cell;
-use diffusor_fit::planar::{PlanarOptions, PlanarResult};
+use diffusor_fit::planar::PlanarOptions;
 use diffusor_fit::replicates::{ReplicateSummary, RunEstimate, summarize};
 use diffusor_trace::{Segment, Trace};
 
@@ -87,6 +94,8 @@ pub struct ReportInput<'a> {
     pub cell: &'a Cell,
     /// The fit options every run used.
     pub options: &'a PlanarOptions,
+    /// The models' extra inputs every run used (film thickness, back reaction, ...).
+    pub model_inputs: &'a ModelInputs,
     /// The importer's settings that differ from its defaults, in words (one per line), as
     /// `time unit given: ms`.
     pub import_notes: &'a [String],
@@ -118,7 +127,7 @@ pub enum Outcome<'a> {
         /// The step segment that was analysed.
         segment: &'a Segment,
         /// The analysis.
-        result: &'a PlanarResult,
+        result: &'a ModelResult,
     },
     /// The file could not be read or analysed.
     Failed {
@@ -149,7 +158,7 @@ pub fn replicates(runs: &[RunInput<'_>]) -> Option<Replicates> {
     if runs.len() < 2 {
         return None;
     }
-    let fitted: Vec<(usize, &str, &PlanarResult)> = runs
+    let fitted: Vec<(usize, &str, &ModelResult)> = runs
         .iter()
         .enumerate()
         .filter_map(|(k, r)| match r.outcome {

@@ -2,8 +2,10 @@
 //! could make a request, the embedded data, and the sections.
 
 use base64::Engine as _;
-use diffusor_fit::cell::{Cell, Measured};
-use diffusor_fit::planar::{Background, PlanarOptions, PlanarResult, analyze};
+use diffusor_fit::analysis::{ModelInputs, ModelKind, ModelResult, analyze_model};
+use diffusor_fit::cell::{Cell, Geometry, Measured};
+use diffusor_fit::models::microdisk::{DiskExpression, microdisk_current_a};
+use diffusor_fit::planar::{Background, PlanarOptions};
 use diffusor_trace::{ImportOptions, Segment, Trace, import_bytes};
 
 use crate::{MAX_CSV_ROWS, Outcome, ReportInput, RunInput, render, replicates};
@@ -59,13 +61,21 @@ struct Run {
     label: String,
     trace: Trace,
     step: Segment,
-    result: PlanarResult,
+    result: ModelResult,
 }
 
 fn fitted(label: &str, csv: &str, options: &PlanarOptions) -> Run {
     let trace = import_bytes(label, csv.as_bytes(), &ImportOptions::default()).expect("imports");
     let step = trace.steps().next().expect("a step").clone();
-    let result = analyze(&trace, &step, &cell(), options).expect("fits");
+    let result = analyze_model(
+        &trace,
+        &step,
+        &cell(),
+        options,
+        None,
+        &ModelInputs::default(),
+    )
+    .expect("fits");
     Run {
         label: label.to_owned(),
         trace,
@@ -95,6 +105,7 @@ fn page(runs: &[RunInput<'_>], options: &PlanarOptions) -> String {
         generated_utc: "2026-01-02 03:04:05 UTC",
         cell: &cell,
         options,
+        model_inputs: &ModelInputs::default(),
         import_notes: &["current unit given: µA".to_owned()],
         runs,
         results_json: Some("{\"schema\": \"diffusor.fit/1\"}"),
@@ -291,9 +302,9 @@ fn embedded_csv_is_the_window_with_fit_and_residual() {
     let rss: f64 = rows.iter().map(|w| w[3] * w[3]).sum();
     let sd = (rss / (rows.len() - 2) as f64).sqrt();
     assert!(
-        (sd - r.diagnostics.residual_sd_a).abs() < 1e-6 * sd,
+        (sd - r.residual_sd).abs() < 1e-6 * sd,
         "{sd} against {}",
-        r.diagnostics.residual_sd_a
+        r.residual_sd
     );
     assert!(html.contains("(they agree)"));
     assert!(html.contains("Every point of the window is included."));
@@ -336,8 +347,8 @@ fn cathodic_runs_with_a_baseline_are_reconstructed_as_fitted() {
         &options,
     );
     let data = crate::data::Processed::new(&run.trace, &run.step, &options.background, &run.result);
-    let sd = data.residual_sd(&run.result);
-    let fit_sd = run.result.diagnostics.residual_sd_a;
+    let sd = data.residual_sd(run.result.planar().expect("a Cottrell run"));
+    let fit_sd = run.result.residual_sd;
     assert!((sd - fit_sd).abs() < 1e-6 * fit_sd, "{sd} against {fit_sd}");
     let html = page(&inputs(std::slice::from_ref(&run)), &options);
     assert!(html.contains("multiplied by −1 for the fit"));
@@ -405,4 +416,104 @@ fn sections_follow_the_runs() {
     let one = page(&list[..1], &options);
     assert!(!one.contains("<h2>Replicates</h2>"));
     assert!(html.contains("<h2>Replicates</h2>"));
+}
+
+#[test]
+fn replicate_statements_read_as_prose() {
+    // Three runs of the same transient with different lengths and one noise stream: their D
+    // differ by far more than their tiny standard errors, so p underflows towards zero.
+    let options = PlanarOptions::default();
+    let runs: Vec<Run> = [3000, 3500, 4000]
+        .iter()
+        .map(|&n| {
+            fitted(
+                &format!("{n}.csv"),
+                &transient(50, n, 1e-3, 1.0, HEADER, ""),
+                &options,
+            )
+        })
+        .collect();
+    let html = page(&inputs(&runs), &options);
+    assert!(!html.contains('`'), "a backtick in the page");
+    assert!(!html.contains("p = 0.00e0"));
+    assert!(
+        html.contains("p < 0.001") || html.contains("p = 0."),
+        "no p-value"
+    );
+}
+
+#[test]
+fn a_disk_run_shows_its_model_and_fitted_curve() {
+    // Mahon & Oldham, Anal. Chem. 77 (2005) 6100 (`microdisk_current_a`): r = 5 µm,
+    // D = 7e-10 m²/s, C = 1 mol/m³, 1 ms sampling for 5 s, 3 pA of noise.
+    let mut noise = Noise(0x1234_5678_9ABC_DEF1);
+    let mut csv = String::from("t (s),E (V),I (A)\n");
+    for k in 0..5050 {
+        let t = (k as f64 - 49.5) * 1e-3;
+        let (e, i) = if t > 0.0 {
+            let i = microdisk_current_a(1.0, 5e-6, 1.0, 7e-10, t, DiskExpression::MahonOldham);
+            (0.45, i + 3e-12 * noise.normal())
+        } else {
+            (0.0, 3e-12 * noise.normal())
+        };
+        csv.push_str(&format!("{:.6},{e},{i:e}\n", k as f64 * 1e-3));
+    }
+    let trace =
+        import_bytes("disk.csv", csv.as_bytes(), &ImportOptions::default()).expect("imports");
+    let step = trace.steps().next().expect("a step").clone();
+    let cell = Cell {
+        geometry: Geometry::Microdisk,
+        radius_m: Some(Measured::exact(5e-6)),
+        ..Cell::default()
+    };
+    let options = PlanarOptions::default();
+    let inputs = ModelInputs::default();
+    let result = analyze_model(&trace, &step, &cell, &options, None, &inputs).expect("fits");
+    assert_eq!(result.model, ModelKind::Microdisk);
+    let runs = [RunInput {
+        label: "disk.csv",
+        sha256: None,
+        outcome: Outcome::Fitted {
+            trace: &trace,
+            segment: &step,
+            result: &result,
+        },
+    }];
+    let html = render(&ReportInput {
+        version: "0.0.0-test",
+        generated_utc: "2026-01-02 03:04:05 UTC",
+        cell: &cell,
+        options: &options,
+        model_inputs: &inputs,
+        import_notes: &[],
+        runs: &runs,
+        results_json: None,
+    });
+    for needle in [
+        result.equation,
+        "P. J. Mahon &amp; K. B. Oldham",
+        "microdisk fit over the window",
+        "valid for",
+        "why this model",
+        "Fitted parameters",
+        "disk expression",
+        "Mahon–Oldham (2005)",
+    ] {
+        assert!(html.contains(needle), "missing {needle:?}");
+    }
+    // The planar figures are not drawn for a disk: the transient and the residuals only.
+    assert!(!html.contains("Cottrell plot over the window"));
+    assert_eq!(html.matches("<svg").count(), 2);
+    // The transient holds the fitted curve: the figure's fit line is the model, which the
+    // embedded CSV's fitted column reproduces.
+    let csv = embedded_csvs(&html);
+    assert_eq!(csv.len(), 1);
+    let row: Vec<f64> = csv[0]
+        .lines()
+        .nth(100)
+        .expect("a row")
+        .split(',')
+        .map(|v| v.parse().expect("number"))
+        .collect();
+    assert!((row[2] / result.predict_a(row[0]) - 1.0).abs() < 1e-12);
 }

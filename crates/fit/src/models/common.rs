@@ -11,7 +11,7 @@ use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, StudentsT};
 
 use crate::FitError;
-use crate::planar::{Estimate, Param};
+use crate::planar::{AnalysisError, Estimate, Param};
 use crate::regression::{NoiseModel, sandwich_covariance};
 use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, Termination, solve};
 
@@ -118,6 +118,20 @@ pub enum ModelError {
     /// The numerical fit failed.
     #[error("the fit failed: {0}")]
     Fit(#[from] FitError),
+    /// The chosen model needs an input that was not given.
+    #[error("the {model} model needs {input}")]
+    MissingInput {
+        /// The model, as the command line names it.
+        model: &'static str,
+        /// What is missing, in words.
+        input: &'static str,
+    },
+    /// The planar Cottrell analysis failed (the message is its own).
+    #[error(transparent)]
+    Analysis(#[from] AnalysisError),
+    /// The automatic window (the planar analysis's rules) could not be set for another model.
+    #[error("the automatic window could not be set ({0}); give both bounds of the window")]
+    Window(AnalysisError),
 }
 
 /// Kinds of model warnings.
@@ -377,8 +391,61 @@ pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitE
             parameters: columns.len(),
             condition_number: f64::INFINITY,
         })?;
+    // The Householder solution is the least-squares solution to rounding: no iterations are
+    // needed (a Levenberg–Marquardt polish cost more than the whole disk fit on 10⁵ points).
     let problem = Linear { columns, y };
-    solve_with_noise(&problem, start)
+    let residuals = problem.residuals(&start);
+    let m = y.len();
+    let p = columns.len();
+    if m <= p {
+        return Err(FitError::TooFewPoints {
+            points: m,
+            parameters: p,
+        });
+    }
+    let rss: f64 = residuals.iter().map(|r| r * r).sum();
+    let dof = m - p;
+    let s2 = rss / dof as f64;
+    let jacobian = problem.jacobian(&start);
+    let rank = || FitError::RankDeficient {
+        column: 0,
+        rank: 0,
+        parameters: p,
+        condition_number: f64::INFINITY,
+    };
+    let normal = jacobian.transpose() * &jacobian;
+    // The 2-norm condition number of the column-equilibrated Jacobian, from the eigenvalues of
+    // its normal matrix scaled to unit diagonal.
+    let scale = DVector::from_fn(p, |j, _| 1.0 / normal[(j, j)].sqrt());
+    let scaled = DMatrix::from_fn(p, p, |i, j| normal[(i, j)] * scale[i] * scale[j]);
+    let eig = scaled.symmetric_eigen().eigenvalues;
+    let condition_number = (eig.max() / eig.min()).sqrt();
+    let plain = normal.try_inverse().ok_or_else(rank)? * s2;
+    let noise = NoiseModel::from_autocorrelation(&autocorrelation(residuals.as_slice()), m);
+    let covariance = sandwich_covariance(&jacobian, s2, noise).ok_or_else(rank)?;
+    let fit = NonlinearFit {
+        parameters: start.iter().copied().collect(),
+        standard_errors: (0..p).map(|j| plain[(j, j)].max(0.0).sqrt()).collect(),
+        covariance: (0..p)
+            .map(|i| (0..p).map(|j| plain[(i, j)]).collect())
+            .collect(),
+        residual_sum_of_squares: rss,
+        residual_standard_deviation: s2.sqrt(),
+        degrees_of_freedom: dof,
+        observations: m,
+        iterations: 0,
+        residual_evaluations: 1,
+        jacobian_evaluations: 1,
+        // At the least-squares solution the residuals are orthogonal to the columns.
+        termination: Termination::Gtol,
+        condition_number,
+    };
+    Ok(Solved {
+        fit,
+        covariance,
+        noise,
+        dof: (noise.effective_points(m) - p as f64).max(1.0),
+    })
 }
 
 /// Checks that `value` is positive and finite.
@@ -497,11 +564,11 @@ pub(crate) fn best_scale(model: &[f64], y: &[f64]) -> (f64, f64) {
 
 impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
     /// Starting values: the best `D` on a log grid from 1e-14 to 1e-6 m²/s (40 per decade),
-    /// each with its least-squares `K`, on at most 2000 evenly strided points (a start needs no
+    /// each with its least-squares `K`, on about 500 evenly strided points (a start needs no
     /// more, and 320 grid values on every point of a long transient cost more than the fit);
     /// then Levenberg–Marquardt from there on all points.
     pub fn solve(&self) -> Result<Solved, FitError> {
-        let stride = (self.data.len() / 2000).max(1);
+        let stride = (self.data.len() / 500).max(1);
         let (t_sub, y_sub): (Vec<f64>, Vec<f64>) = self
             .data
             .time_s
@@ -516,6 +583,200 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
         };
         let d0 = log_grid_min(1e-14, 1e-6, 320, |d| fit_k(d).1);
         let k0 = fit_k(d0).0;
-        solve_with_noise(self, DVector::from_vec(vec![d0, k0]))
+        self.solve_two([d0, k0])
+    }
+
+    /// One pass over the data at `[d, k]`: the residual sum of squares and, with `normal`,
+    /// JᵀJ (as `[a11, a12, a22]`) and Jᵀr. `None` where the model is undefined.
+    fn pass(&self, d: f64, k: f64, normal: bool) -> Option<(f64, [f64; 3], [f64; 2])> {
+        if !(d > 0.0) {
+            return None;
+        }
+        let (mut rss, mut a, mut b) = (0.0, [0.0; 3], [0.0; 2]);
+        for (&t, &y) in self.data.time_s.iter().zip(self.data.current_a) {
+            let (g, dg) = (self.shape)(d, t);
+            let r = y - k * g;
+            rss += r * r;
+            if normal {
+                let (j0, j1) = (-k * dg, -g);
+                a[0] += j0 * j0;
+                a[1] += j0 * j1;
+                a[2] += j1 * j1;
+                b[0] += j0 * r;
+                b[1] += j1 * r;
+            }
+        }
+        (rss.is_finite() && a.iter().chain(&b).all(|v| v.is_finite())).then_some((rss, a, b))
+    }
+
+    /// Levenberg–Marquardt for the two parameters with JᵀJ and Jᵀr accumulated in one pass
+    /// over the data (no m × 2 Jacobian is stored), steps from the Marquardt-scaled normal
+    /// equations (D. W. Marquardt, J. SIAM 11 (1963) 431), and the same tolerances and
+    /// covariance as [`solve_with_noise`]: s²·(JᵀJ)⁻¹ for the fit, the sandwich for white plus
+    /// AR(1) noise for the intervals. Two parameters keep the 2 × 2 normal equations well
+    /// within double precision once the columns are scaled to unit diagonal.
+    fn solve_two(&self, p0: [f64; 2]) -> Result<Solved, FitError> {
+        let m = self.data.len();
+        if m <= 2 {
+            return Err(FitError::TooFewPoints {
+                points: m,
+                parameters: 2,
+            });
+        }
+        let opts = SolveOptions::default();
+        let undefined = || FitError::RankDeficient {
+            column: 0,
+            rank: 0,
+            parameters: 2,
+            condition_number: f64::INFINITY,
+        };
+        let mut p = p0;
+        let (mut rss, mut a, mut b) = self.pass(p[0], p[1], true).ok_or_else(undefined)?;
+        let mut lambda = 1e-3;
+        let mut iterations = 0u64;
+        let mut evaluations = 1u64;
+        let mut jacobians = 1u64;
+        let termination = loop {
+            if iterations >= opts.max_iterations {
+                break Termination::MaxIterations;
+            }
+            iterations += 1;
+            // Scale to unit diagonal, then damp the diagonal.
+            let (s0, s1) = (a[0].sqrt(), a[2].sqrt());
+            if !(s0 > 0.0 && s1 > 0.0) {
+                return Err(undefined());
+            }
+            let c = a[1] / (s0 * s1);
+            let (g0, g1) = (-b[0] / s0, -b[1] / s1);
+            let mut accepted = None;
+            while lambda < 1e20 {
+                let (d0, d1) = (1.0 + lambda, 1.0 + lambda);
+                let det = d0 * d1 - c * c;
+                if !(det > 0.0) {
+                    lambda *= 10.0;
+                    continue;
+                }
+                let step = [(d1 * g0 - c * g1) / det / s0, (d0 * g1 - c * g0) / det / s1];
+                let trial = [p[0] + step[0], p[1] + step[1]];
+                // The trial pass accumulates the normal equations too: the shape costs the same
+                // with its derivative, and an accepted step then needs no second pass.
+                evaluations += 1;
+                jacobians += 1;
+                match self.pass(trial[0], trial[1], true) {
+                    Some(next) if next.0 <= rss => {
+                        accepted = Some((trial, step, next));
+                        break;
+                    }
+                    _ => lambda *= 10.0,
+                }
+            }
+            let Some((trial, step, next)) = accepted else {
+                break Termination::MachinePrecision;
+            };
+            lambda = (lambda / 10.0).max(1e-15);
+            let f_ok = rss - next.0 <= opts.ftol * rss;
+            let x_ok = (0..2).all(|j| step[j].abs() <= opts.xtol * (p[j].abs() + opts.xtol));
+            p = trial;
+            (rss, a, b) = next;
+            match (f_ok, x_ok) {
+                (true, true) => break Termination::FtolAndXtol,
+                (true, false) => break Termination::Ftol,
+                (false, true) => break Termination::Xtol,
+                (false, false) => {}
+            }
+        };
+        if !termination.is_converged() {
+            return Err(FitError::NotConverged {
+                reason: termination,
+                iterations,
+                evaluations,
+            });
+        }
+        let det = a[0] * a[2] - a[1] * a[1];
+        if !(det > 0.0) {
+            return Err(undefined());
+        }
+        let inv = [a[2] / det, -a[1] / det, a[0] / det];
+        let dof = m - 2;
+        let s2 = rss / dof as f64;
+        let cov = [[s2 * inv[0], s2 * inv[1]], [s2 * inv[1], s2 * inv[2]]];
+        // The 2-norm condition number of the column-equilibrated Jacobian, from the scaled
+        // normal matrix [[1, c], [c, 1]] (eigenvalues 1 ± |c|).
+        let c = (a[1] / (a[0] * a[2]).sqrt()).abs();
+        let fit = NonlinearFit {
+            parameters: p.to_vec(),
+            standard_errors: vec![cov[0][0].sqrt(), cov[1][1].sqrt()],
+            covariance: cov.iter().map(|r| r.to_vec()).collect(),
+            residual_sum_of_squares: rss,
+            residual_standard_deviation: s2.sqrt(),
+            degrees_of_freedom: dof,
+            observations: m,
+            iterations,
+            residual_evaluations: evaluations,
+            jacobian_evaluations: jacobians,
+            termination,
+            condition_number: ((1.0 + c) / (1.0 - c)).sqrt(),
+        };
+        // The residuals once more, for their autocorrelation, and the sandwich with the rows
+        // of J made on the fly: the recursion of `regression::sandwich_covariance`.
+        let (d, k) = (p[0], p[1]);
+        let mut residuals = Vec::with_capacity(m);
+        for (&t, &y) in self.data.time_s.iter().zip(self.data.current_a) {
+            residuals.push(y - k * (self.shape)(d, t).0);
+        }
+        let noise = NoiseModel::from_autocorrelation(&autocorrelation(&residuals), m);
+        let mut middle = [
+            a[0] * (1.0 - noise.c),
+            a[1] * (1.0 - noise.c),
+            a[2] * (1.0 - noise.c),
+        ];
+        if noise.c > 0.0 && noise.phi > 0.0 {
+            let phi = noise.phi;
+            let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
+            let mut acc = [0.0f64; 3];
+            for (i, &t) in self.data.time_s.iter().enumerate() {
+                let (g, dg) = (self.shape)(d, t);
+                let z = [-k * dg, -g];
+                if i > 0 {
+                    h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
+                }
+                acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
+                acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
+                acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
+                prev = z;
+            }
+            for j in 0..3 {
+                middle[j] += noise.c * acc[j];
+            }
+        }
+        // inv·middle·inv·s², all symmetric 2 × 2.
+        let mul = |x: [f64; 3], y: [f64; 3]| {
+            [
+                [x[0] * y[0] + x[1] * y[1], x[0] * y[1] + x[1] * y[2]],
+                [x[1] * y[0] + x[2] * y[1], x[1] * y[1] + x[2] * y[2]],
+            ]
+        };
+        let im = mul(inv, middle);
+        let sandwich = [
+            im[0][0] * inv[0] + im[0][1] * inv[1],
+            im[0][0] * inv[1] + im[0][1] * inv[2],
+            im[1][0] * inv[1] + im[1][1] * inv[2],
+        ];
+        let covariance = DMatrix::from_row_slice(
+            2,
+            2,
+            &[
+                sandwich[0] * s2,
+                sandwich[1] * s2,
+                sandwich[1] * s2,
+                sandwich[2] * s2,
+            ],
+        );
+        Ok(Solved {
+            fit,
+            covariance,
+            noise,
+            dof: (noise.effective_points(m) - 2.0).max(1.0),
+        })
     }
 }
