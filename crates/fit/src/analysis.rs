@@ -1249,8 +1249,27 @@ fn cottrell(
     inputs: &ModelInputs,
     by_default: bool,
 ) -> Result<ModelResult, ModelError> {
-    let model = ModelKind::Cottrell;
     let planar = analyze(trace, segment, cell, options)?;
+    Ok(from_planar(planar, cell, inputs, by_default))
+}
+
+impl ModelResult {
+    /// The result of the planar analysis in the shape every model shares, as
+    /// [`analyze_model`] gives it for Cottrell (for callers that ran [`analyze`] themselves,
+    /// such as the desktop window).
+    pub fn from_planar(planar: PlanarResult, cell: &Cell, inputs: &ModelInputs) -> ModelResult {
+        let by_default = ModelKind::default_for(cell.geometry) == ModelKind::Cottrell;
+        from_planar(planar, cell, inputs, by_default)
+    }
+}
+
+fn from_planar(
+    planar: PlanarResult,
+    cell: &Cell,
+    inputs: &ModelInputs,
+    by_default: bool,
+) -> ModelResult {
+    let model = ModelKind::Cottrell;
     let mut warnings = Vec::new();
     let choice = choice_note(
         model,
@@ -1262,7 +1281,7 @@ fn cottrell(
         &mut warnings,
     );
     warnings.extend(planar.warnings.iter().map(|w| w.message.clone()));
-    Ok(ModelResult {
+    ModelResult {
         model,
         variant: planar.model,
         choice,
@@ -1293,5 +1312,5 @@ fn cottrell(
         warnings,
         details: ModelDetails::Planar(planar),
         curve: Curve::Planar,
-    })
+    }
 }

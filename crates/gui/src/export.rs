@@ -6,6 +6,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::time::{SystemTime, UNIX_EPOCH};
 
+use diffusor_fit::analysis::{ModelInputs, ModelResult};
 use diffusor_fit::cell::Cell;
 use diffusor_fit::planar::PlanarOptions;
 use diffusor_report::json::{RunRecord, document_text, replicates_json};
@@ -164,9 +165,10 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
     if runs.is_empty() {
         return Err("no runs to report: open a file first".to_owned());
     }
+    let models = model_results(runs, cell);
     let mut notes = Vec::new();
     let mut inputs = Vec::with_capacity(runs.len());
-    for run in runs {
+    for (run, model) in runs.iter().zip(&models) {
         for (what, col) in [
             ("time", &run.columns.time),
             ("current", &run.columns.current),
@@ -186,16 +188,17 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
                 ));
             }
         }
-        inputs.push(run_input(run));
+        inputs.push(run_input(run, model.as_ref()));
     }
     let generated = now_utc();
     // The same document the Results (JSON) export writes, embedded as `diffusor report` does.
-    let results = results_document(runs, &inputs, cell);
+    let results = results_document(runs, &models, &inputs, cell);
     Ok(render(&ReportInput {
         version: env!("CARGO_PKG_VERSION"),
         generated_utc: &generated,
         cell,
         options,
+        model_inputs: &ModelInputs::default(),
         import_notes: &notes,
         runs: &inputs,
         results_json: Some(&results),
@@ -206,14 +209,20 @@ const NOT_FITTED: &str = "not fitted yet (the export was made while it was being
 
 /// The `diffusor.fit/1` text of `runs` (with `inputs` their report inputs, for the replicate
 /// comparison the report shows).
-fn results_document(runs: &[Run], inputs: &[RunInput<'_>], cell: &Cell) -> String {
+fn results_document(
+    runs: &[Run],
+    models: &[Option<ModelResult>],
+    inputs: &[RunInput<'_>],
+    cell: &Cell,
+) -> String {
     let records: Vec<RunRecord<'_>> = runs
         .iter()
-        .map(|run| RunRecord {
+        .zip(models)
+        .map(|(run, model)| RunRecord {
             file: &run.name,
             sha256: run.data().and_then(|d| d.sha256.as_deref()),
-            result: match (run.fit_view(), run.error()) {
-                (Some(f), _) => Ok(&f.result),
+            result: match (model, run.error()) {
+                (Some(m), _) => Ok(m),
                 (None, Some(e)) => Err(e),
                 (None, None) => Err(NOT_FITTED),
             },
@@ -239,16 +248,32 @@ pub fn results_json(runs: &[Run], cell: &Cell) -> Result<String, String> {
     if runs.is_empty() {
         return Err("no runs to report: open a file first".to_owned());
     }
-    let inputs: Vec<RunInput<'_>> = runs.iter().map(run_input).collect();
-    Ok(results_document(runs, &inputs, cell) + "\n")
+    let models = model_results(runs, cell);
+    let inputs: Vec<RunInput<'_>> = runs
+        .iter()
+        .zip(&models)
+        .map(|(run, model)| run_input(run, model.as_ref()))
+        .collect();
+    Ok(results_document(runs, &models, &inputs, cell) + "\n")
 }
 
-fn run_input(run: &Run) -> RunInput<'_> {
-    let outcome = match (run.data(), run.fit_view(), run.error()) {
-        (Some(d), Some(f), _) => Outcome::Fitted {
+/// Each fitted run's planar analysis in the shape the report and the JSON take for every
+/// model (the window fits the planar Cottrell analysis only).
+fn model_results(runs: &[Run], cell: &Cell) -> Vec<Option<ModelResult>> {
+    runs.iter()
+        .map(|run| {
+            run.fit_view()
+                .map(|f| ModelResult::from_planar(f.result.clone(), cell, &ModelInputs::default()))
+        })
+        .collect()
+}
+
+fn run_input<'a>(run: &'a Run, model: Option<&'a ModelResult>) -> RunInput<'a> {
+    let outcome = match (run.data(), model, run.error()) {
+        (Some(d), Some(m), _) => Outcome::Fitted {
             trace: &d.trace,
             segment: &d.step,
-            result: &f.result,
+            result: m,
         },
         (d, _, Some(e)) => Outcome::Failed {
             trace: d.map(|d| &d.trace),
