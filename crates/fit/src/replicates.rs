@@ -405,7 +405,9 @@ fn weighted_mean(values: &[f64], std_errors: &[f64]) -> Result<WeightedMean, Fit
     let external_std_error = (birge_ratio > 1.0).then_some(internal_std_error * birge_ratio);
     let consistent = p_value >= CONSISTENCY_ALPHA;
     let figures = format!(
-        "Birge ratio {birge_ratio:.3}, χ² = {chi_squared:.4} on {dof} degrees of freedom, {}",
+        "Birge ratio {}, χ² = {} on {dof} degrees of freedom, {}",
+        prose_number(birge_ratio, 4),
+        prose_number(chi_squared, 4),
         format_p(p_value)
     );
     let statement = match external_std_error {
@@ -414,8 +416,9 @@ fn weighted_mean(values: &[f64], std_errors: &[f64]) -> Result<WeightedMean, Fit
         ),
         Some(external) => format!(
             "the {n} runs scatter more than their own standard errors allow ({figures} < \
-             {CONSISTENCY_ALPHA}); the external standard error {external:.4e} (internal × Birge \
-             ratio) is the honest uncertainty of the weighted mean"
+             {CONSISTENCY_ALPHA}); the external standard error {} (internal × Birge \
+             ratio) is the honest uncertainty of the weighted mean",
+            prose_number(external, 3)
         ),
         // χ²'s upper 5 % point exceeds its degrees of freedom for every dof,
         // so p < 0.05 implies R_B > 1; this arm is kept only so that the
@@ -485,15 +488,17 @@ fn grubbs_test(runs: &[RunEstimate], mean: f64, sd: f64) -> Result<GrubbsOutcome
     let suspect = &runs[suspect_index];
     let statement = if outlier {
         format!(
-            "run “{}” ({:.6e}) is an outlier by Grubbs' test: G = {statistic:.3} > G_crit = \
+            "run “{}” ({}) is an outlier by Grubbs' test: G = {statistic:.3} > G_crit = \
              {critical_value:.3} (n = {n}, α = {GRUBBS_ALPHA} two-sided)",
-            suspect.label, suspect.value
+            suspect.label,
+            prose_number(suspect.value, 5)
         )
     } else {
         format!(
-            "no outlier by Grubbs' test: the run farthest from the mean, “{}” ({:.6e}), has G = \
+            "no outlier by Grubbs' test: the run farthest from the mean, “{}” ({}), has G = \
              {statistic:.3} ≤ G_crit = {critical_value:.3} (n = {n}, α = {GRUBBS_ALPHA} two-sided)",
-            suspect.label, suspect.value
+            suspect.label,
+            prose_number(suspect.value, 5)
         )
     };
     Ok(GrubbsOutcome::Tested(GrubbsTest {
@@ -506,6 +511,44 @@ fn grubbs_test(runs: &[RunEstimate], mean: f64, sd: f64) -> Result<GrubbsOutcome
         outlier,
         statement,
     }))
+}
+
+/// `x` to `digits` significant figures for a sentence: plain between 0.01 and 10⁴, else as
+/// `7.65 × 10⁻⁸`.
+fn prose_number(x: f64, digits: usize) -> String {
+    if !x.is_finite() {
+        return format!("{x}");
+    }
+    if x == 0.0 {
+        return "0".to_owned();
+    }
+    let exponent = x.abs().log10().floor() as i32;
+    if (-2..4).contains(&exponent) {
+        let decimals = (digits as i32 - 1 - exponent).max(0) as usize;
+        return format!("{x:.decimals$}");
+    }
+    let mantissa = x / 10f64.powi(exponent);
+    // Rounding can carry the mantissa to 10.
+    let (mantissa, exponent) =
+        if (mantissa.abs() * 10f64.powi(digits as i32 - 1)).round() >= 10f64.powi(digits as i32) {
+            (mantissa / 10.0, exponent + 1)
+        } else {
+            (mantissa, exponent)
+        };
+    const SUPERSCRIPTS: [char; 10] = ['⁰', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹'];
+    let mut power: String = exponent
+        .unsigned_abs()
+        .to_string()
+        .chars()
+        .map(|c| SUPERSCRIPTS[c.to_digit(10).map_or(0, |d| d as usize)])
+        .collect();
+    if exponent < 0 {
+        power.insert(0, '⁻');
+    }
+    format!(
+        "{mantissa:.prec$} × 10{power}",
+        prec = digits.saturating_sub(1)
+    )
 }
 
 /// A p-value as a statement reads it: `p = 0.023` to three decimals, and
@@ -850,7 +893,7 @@ mod tests {
         assert_eq!(g.suspect_label, "electrode B, run 2");
         assert!(
             g.statement.starts_with(
-                "run “electrode B, run 2” (9.000000e-10) is an outlier by Grubbs' test"
+                "run “electrode B, run 2” (9.0000 × 10⁻¹⁰) is an outlier by Grubbs' test"
             ),
             "{}",
             g.statement
@@ -871,6 +914,16 @@ mod tests {
         assert!(!g.outlier);
         assert_eq!(g.suspect_label, "r5");
         assert!(g.statement.starts_with("no outlier by Grubbs' test"));
+    }
+
+    #[test]
+    fn numbers_in_sentences_read_as_prose() {
+        assert_eq!(prose_number(7.649_04e-8, 3), "7.65 × 10⁻⁸");
+        assert_eq!(prose_number(6.862_855e-6, 5), "6.8629 × 10⁻⁶");
+        assert_eq!(prose_number(142_080.1236, 4), "1.421 × 10⁵");
+        assert_eq!(prose_number(266.533, 4), "266.5");
+        assert_eq!(prose_number(1.0442, 4), "1.044");
+        assert_eq!(prose_number(9.9996e-9, 3), "1.00 × 10⁻⁸");
     }
 
     #[test]
