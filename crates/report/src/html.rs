@@ -242,12 +242,19 @@ fn measured_row(name: &str, m: Option<Measured>, si_unit: &str, note: &str) -> M
     }
 }
 
-fn geometry_text(g: Geometry) -> &'static str {
-    match g {
-        Geometry::Planar => "planar (a macro electrode; edge diffusion checked against the radius)",
-        Geometry::Microdisk => "microdisk (fitted here with the planar model)",
-        Geometry::Sphere => "sphere (fitted here with the planar model)",
-        Geometry::Hemisphere => "hemisphere (fitted here with the planar model)",
+/// The geometry in words; `planar_fit` says every run was fitted with the planar Cottrell
+/// analysis, which a non-planar electrode should hear about.
+fn geometry_text(g: Geometry, planar_fit: bool) -> &'static str {
+    match (g, planar_fit) {
+        (Geometry::Planar, _) => {
+            "planar (a macro electrode; edge diffusion checked against the radius)"
+        }
+        (Geometry::Microdisk, true) => "microdisk (fitted here with the planar model)",
+        (Geometry::Sphere, true) => "sphere (fitted here with the planar model)",
+        (Geometry::Hemisphere, true) => "hemisphere (fitted here with the planar model)",
+        (Geometry::Microdisk, false) => "microdisk",
+        (Geometry::Sphere, false) => "sphere",
+        (Geometry::Hemisphere, false) => "hemisphere",
     }
 }
 
@@ -374,7 +381,7 @@ fn inputs_section(input: &ReportInput<'_>) -> Markup {
                             }
                             tr {
                                 th scope="row" { "geometry" }
-                                td colspan="4" { (geometry_text(c.geometry)) }
+                                td colspan="4" { (geometry_text(c.geometry, models_used(input.runs).iter().all(|m| *m == ModelKind::Cottrell.name()))) }
                             }
                             (measured_row("area, A", c.effective_area_m2(), "m²", area_note))
                             @if c.radius_m.is_some() {
