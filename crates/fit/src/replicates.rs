@@ -920,7 +920,7 @@ mod tests {
     fn numbers_in_sentences_read_as_prose() {
         assert_eq!(prose_number(7.649_04e-8, 3), "7.65 × 10⁻⁸");
         assert_eq!(prose_number(6.862_855e-6, 5), "6.8629 × 10⁻⁶");
-        assert_eq!(prose_number(142_080.1236, 4), "1.421 × 10⁵");
+        assert_eq!(prose_number(142_080.123_6, 4), "1.421 × 10⁵");
         assert_eq!(prose_number(266.533, 4), "266.5");
         assert_eq!(prose_number(1.0442, 4), "1.044");
         assert_eq!(prose_number(9.9996e-9, 3), "1.00 × 10⁻⁸");
