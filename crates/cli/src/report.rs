@@ -28,29 +28,6 @@ pub struct Args {
     output: PathBuf,
 }
 
-/// A time since the Unix epoch as `YYYY-MM-DD hh:mm:ss UTC`, by the proleptic Gregorian
-/// calendar (the civil-from-days algorithm of H. Hinnant, "chrono-Compatible Low-Level Date
-/// Algorithms", 2013).
-fn utc_timestamp(seconds: i64) -> String {
-    let days = seconds.div_euclid(86_400);
-    let secs = seconds.rem_euclid(86_400);
-    let z = days + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z.rem_euclid(146_097);
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let day = doy - (153 * mp + 2) / 5 + 1;
-    let month = if mp < 10 { mp + 3 } else { mp - 9 };
-    let year = yoe + era * 400 + i64::from(month <= 2);
-    format!(
-        "{year:04}-{month:02}-{day:02} {:02}:{:02}:{:02} UTC",
-        secs / 3600,
-        secs % 3600 / 60,
-        secs % 60
-    )
-}
-
 /// The importer's settings that differ from its defaults, for the report's record.
 fn import_notes(import: &ImportArgs) -> Vec<String> {
     let mut notes = Vec::new();
@@ -161,7 +138,7 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
     let now = SystemTime::now()
         .duration_since(UNIX_EPOCH)
         .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));
-    let generated = utc_timestamp(now);
+    let generated = diffusor_report::utc_timestamp(now);
     let notes = import_notes(args.fit.import());
     let page = render(&ReportInput {
         version: env!("CARGO_PKG_VERSION"),
@@ -201,21 +178,4 @@ pub fn run(args: &Args) -> anyhow::Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     })
-}
-
-#[cfg(test)]
-mod tests {
-    use super::utc_timestamp;
-
-    #[test]
-    fn timestamps_are_utc_civil_dates() {
-        // The epoch; 2000-02-29 is day 11 016 (a leap day in a century year divisible by 400);
-        // 1 700 000 000 s is 2023-11-14 22:13:20 UTC; one second before the epoch.
-        assert_eq!(utc_timestamp(0), "1970-01-01 00:00:00 UTC");
-        assert_eq!(utc_timestamp(11_016 * 86_400), "2000-02-29 00:00:00 UTC");
-        assert_eq!(utc_timestamp(1_700_000_000), "2023-11-14 22:13:20 UTC");
-        assert_eq!(utc_timestamp(-1), "1969-12-31 23:59:59 UTC");
-        // 2100 is not a leap year: the day after 28 February is 1 March.
-        assert_eq!(utc_timestamp(4_107_542_400), "2100-03-01 00:00:00 UTC");
-    }
 }

@@ -125,34 +125,11 @@ pub fn with_extension(path: &Path, ext: &str) -> PathBuf {
     }
 }
 
-/// A time since the Unix epoch as `YYYY-MM-DD hh:mm:ss UTC`, by the proleptic Gregorian
-/// calendar (the civil-from-days algorithm of H. Hinnant, "chrono-Compatible Low-Level Date
-/// Algorithms", 2013), as the command line's report prints it.
-pub fn utc_timestamp(seconds: i64) -> String {
-    let days = seconds.div_euclid(86_400);
-    let secs = seconds.rem_euclid(86_400);
-    let z = days + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z.rem_euclid(146_097);
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let day = doy - (153 * mp + 2) / 5 + 1;
-    let month = if mp < 10 { mp + 3 } else { mp - 9 };
-    let year = yoe + era * 400 + i64::from(month <= 2);
-    format!(
-        "{year:04}-{month:02}-{day:02} {:02}:{:02}:{:02} UTC",
-        secs / 3600,
-        secs % 3600 / 60,
-        secs % 60
-    )
-}
-
 fn now_utc() -> String {
     let now = SystemTime::now()
         .duration_since(UNIX_EPOCH)
         .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));
-    utc_timestamp(now)
+    diffusor_report::utc_timestamp(now)
 }
 
 /// The HTML report of `runs` fitted with `cell` and `options` (the per-run windows are in each
@@ -377,13 +354,5 @@ mod tests {
         let path = dir.path().join("nope").join("out.txt");
         let e = write_atomic(&path, b"x").expect_err("no folder");
         assert!(e.starts_with("no such folder: "), "{e}");
-    }
-
-    #[test]
-    fn timestamps_are_utc_civil_dates() {
-        // 1 700 000 000 s after the epoch is 2023-11-14 22:13:20 UTC (any epoch converter);
-        // 2000-02-29 is day 11 016, a leap day in a century year divisible by 400.
-        assert_eq!(utc_timestamp(1_700_000_000), "2023-11-14 22:13:20 UTC");
-        assert_eq!(utc_timestamp(11_016 * 86_400), "2000-02-29 00:00:00 UTC");
     }
 }
