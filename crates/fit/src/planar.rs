@@ -736,7 +736,7 @@ pub fn analyze_data(
                 t0_p,
                 options.intercept,
             ) {
-                Ok(t0) if t0 < time[lo_index] && t0 < time[0] => {
+                Ok(t0) if t0 < time[0] => {
                     let line = fit_line(
                         &slice_window(time, current, pa, pb, t0),
                         regressor_at(pa),
@@ -1345,10 +1345,10 @@ fn onset_sums(
         // The dense part's recursion, h_k = Σ_{i<k} φ^(k−i) zᵢ, meets Σ_{j≥k} φ^(j−k) zⱼ ≈
         // z_k/(1 − φ).
         let zk = row(k);
+        let hk: [f64; 3] = std::array::from_fn(|m| phi * (h[m] + prev[m]));
         for r in 0..3 {
             for c in 0..3 {
-                let hk = |m: usize| phi * (h[m] + prev[m]);
-                ar[r][c] += (hk(r) * zk[c] + zk[r] * hk(c)) / (1.0 - phi);
+                ar[r][c] += (hk[r] * zk[c] + zk[r] * hk[c]) / (1.0 - phi);
             }
         }
         let smooth = (1.0 + phi) / (1.0 - phi);

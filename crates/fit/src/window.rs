@@ -5,8 +5,9 @@
 use nalgebra::DVector;
 use serde::Serialize;
 
+use crate::models::planar::ShiftedCottrellCharging;
 use crate::regression::NoiseModel;
-use crate::solver::{LeastSquaresProblem, SolveOptions, solve};
+use crate::solver::{SolveOptions, solve};
 
 /// A bound chosen automatically or given.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Default)]
@@ -348,62 +349,6 @@ pub(crate) fn estimate_charging(
         t0,
         fit.residual_standard_deviation,
     ))
-}
-
-/// Cottrell with a free onset plus the charging current, `I = S·(t − t0)^-½ + b + A·e^(−t/τ)`,
-/// parameters `[S, b, t0, ln A, ln τ]` (b dropped without an intercept); the charging decays
-/// from the nominal onset, where the potential stepped.
-struct ShiftedCottrellCharging<'a> {
-    time_s: &'a [f64],
-    current_a: &'a [f64],
-    intercept: bool,
-}
-
-impl ShiftedCottrellCharging<'_> {
-    fn unpack(&self, p: &DVector<f64>) -> (f64, f64, f64, f64, f64) {
-        if self.intercept {
-            (p[0], p[1], p[2], p[3].exp(), p[4].exp())
-        } else {
-            (p[0], 0.0, p[1], p[2].exp(), p[3].exp())
-        }
-    }
-}
-
-impl LeastSquaresProblem for ShiftedCottrellCharging<'_> {
-    fn residuals(&self, p: &DVector<f64>) -> DVector<f64> {
-        let (s, b, t0, a, tau) = self.unpack(p);
-        DVector::from_iterator(
-            self.time_s.len(),
-            self.time_s.iter().zip(self.current_a).map(|(&t, &y)| {
-                let dt = t - t0;
-                if dt > 0.0 {
-                    y - s / dt.sqrt() - b - a * (-t / tau).exp()
-                } else {
-                    f64::NAN
-                }
-            }),
-        )
-    }
-
-    fn jacobian(&self, p: &DVector<f64>) -> nalgebra::DMatrix<f64> {
-        let (s, _, t0, a, tau) = self.unpack(p);
-        let cols = if self.intercept { 5 } else { 4 };
-        nalgebra::DMatrix::from_fn(self.time_s.len(), cols, |i, j| {
-            let t = self.time_s[i];
-            let dt = t - t0;
-            let e = a * (-t / tau).exp();
-            let j = if self.intercept || j == 0 { j } else { j + 1 };
-            match j {
-                0 => -1.0 / dt.sqrt(),
-                1 => -1.0,
-                // ∂/∂t0 of −S·(t − t0)^-½ is −S/2·(t − t0)^-3/2.
-                2 => -0.5 * s / (dt * dt.sqrt()),
-                // ∂(A e^(−t/τ))/∂ln A = A e^(−t/τ); ∂/∂ln τ = A e^(−t/τ)·t/τ.
-                3 => -e,
-                _ => -e * t / tau,
-            }
-        })
-    }
 }
 
 /// The smallest t ≥ τ/2 after which A·e^(−t/τ) < f·S·t^-½ (the ratio decreases for t > τ/2).
