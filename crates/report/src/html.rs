@@ -264,7 +264,7 @@ fn bound_rule(choice: BoundChoice, lower: bool, o: &PlanarOptions) -> String {
         BoundChoice::At(t) => format!("set by the user at {}", si(t, "s", 4)),
         BoundChoice::Auto if lower => {
             let mut s = format!(
-                "automatic: {} × the charging time constant τ = Ru·Cdl, and no earlier than where the fitted charging current falls below {} % of the faradaic current; when τ cannot be resolved, after the leading points whose current exceeds the Cottrell line significantly",
+                "automatic: {} × the charging time constant τ = Ru·Cdl, and no earlier than where the fitted charging current falls below {} % of the faradaic current or below a tenth of the noise of the current; when τ cannot be resolved, after the leading points whose current exceeds the Cottrell line significantly",
                 w.k_tau,
                 w.charging_fraction * 100.0
             );
