@@ -132,6 +132,14 @@ pub struct ChoiceNote {
     pub reason: String,
 }
 
+impl ChoiceNote {
+    /// The model the geometry check recommends, as a choice the user can make, when it could
+    /// judge.
+    pub fn recommended_model(&self) -> Option<ModelKind> {
+        self.recommended.as_ref().map(recommended_choice)
+    }
+}
+
 /// The model-specific part of a result.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(rename_all = "snake_case", tag = "kind")]

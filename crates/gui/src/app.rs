@@ -200,6 +200,7 @@ impl DiffusorApp {
             expected_sha256: None,
             notice: None,
             columns: Default::default(),
+            model: Default::default(),
         });
         if self.focus.is_none() {
             self.focus = Some(id);
@@ -284,6 +285,10 @@ impl DiffusorApp {
         let Some(data) = run.data().cloned() else {
             return;
         };
+        // Entries with a problem are flagged where they are typed; the last fit stays.
+        let Ok(inputs) = run.model.inputs() else {
+            return;
+        };
         run.generations += 1;
         run.fit.pending = Some(run.generations);
         self.queue.push(Job::Fit {
@@ -292,6 +297,8 @@ impl DiffusorApp {
             data,
             cell,
             options: Box::new(choices.options(run.lo.choice, run.hi.choice)),
+            model: run.model.kind,
+            inputs: Box::new(inputs),
         });
     }
 
@@ -646,7 +653,8 @@ impl DiffusorApp {
                 selected: run.selected,
                 window_lo_s: bound(run.lo.choice),
                 window_hi_s: bound(run.hi.choice),
-                model: session::PLANAR_MODEL.to_owned(),
+                model: session::model_name(run.model.kind).to_owned(),
+                model_entries: session::ModelEntries::of(&run.model),
                 time_column: run.columns.time.trim().to_owned(),
                 current_column: run.columns.current.trim().to_owned(),
             });
@@ -774,11 +782,13 @@ impl DiffusorApp {
                         field.show_time(t);
                     }
                 }
-                if saved.model != session::PLANAR_MODEL {
-                    run.notice = Some(format!(
-                        "saved with the model “{}”, which this version does not offer: fitted with planar Cottrell",
-                        saved.model
-                    ));
+                let kind = session::model_kind(&saved.model).unwrap_or_else(|e| {
+                    run.notice = Some(e);
+                    None
+                });
+                // `parse` has checked the entries.
+                if let Ok(fields) = saved.model_entries.fields(kind) {
+                    run.model = fields;
                 }
             }
             ids.push(id);
@@ -1193,7 +1203,7 @@ impl DiffusorApp {
                 let stale = self.stale;
                 let run = focus.and_then(|id| self.runs.iter_mut().find(|r| r.id == id));
                 match self.results.ui(ui, run, stale) {
-                    Some(ResultAction::WindowEdited) => {
+                    Some(ResultAction::WindowEdited | ResultAction::ModelChanged) => {
                         if let Some(id) = focus {
                             self.request_fit(id);
                         }

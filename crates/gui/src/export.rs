@@ -142,8 +142,9 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
     if runs.is_empty() {
         return Err("no runs to report: open a file first".to_owned());
     }
-    let models = model_results(runs, cell);
+    let models = model_results(runs);
     let mut notes = Vec::new();
+    let model_inputs = report_model_inputs(runs, &mut notes);
     let mut inputs = Vec::with_capacity(runs.len());
     for (run, model) in runs.iter().zip(&models) {
         for (what, col) in [
@@ -167,6 +168,18 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
         }
         inputs.push(run_input(run, model.as_ref()));
     }
+    let unticked: Vec<&str> = runs
+        .iter()
+        .filter(|r| !r.selected)
+        .map(|r| r.name.as_str())
+        .collect();
+    if !unticked.is_empty() && runs.len() > 1 {
+        // The window's Replicates view compares the ticked runs only; the report holds them all.
+        notes.push(format!(
+            "the replicate comparison here covers every run; the window compared only the ticked ones (not ticked: {})",
+            unticked.join(", ")
+        ));
+    }
     let generated = now_utc();
     // The same document the Results (JSON) export writes, embedded as `diffusor report` does.
     let results = results_document(runs, &models, &inputs, cell);
@@ -175,7 +188,7 @@ pub fn report_html(runs: &[Run], cell: &Cell, options: &PlanarOptions) -> Result
         generated_utc: &generated,
         cell,
         options,
-        model_inputs: &ModelInputs::default(),
+        model_inputs: &model_inputs,
         import_notes: &notes,
         runs: &inputs,
         results_json: Some(&results),
@@ -225,7 +238,7 @@ pub fn results_json(runs: &[Run], cell: &Cell) -> Result<String, String> {
     if runs.is_empty() {
         return Err("no runs to report: open a file first".to_owned());
     }
-    let models = model_results(runs, cell);
+    let models = model_results(runs);
     let inputs: Vec<RunInput<'_>> = runs
         .iter()
         .zip(&models)
@@ -234,15 +247,78 @@ pub fn results_json(runs: &[Run], cell: &Cell) -> Result<String, String> {
     Ok(results_document(runs, &models, &inputs, cell) + "\n")
 }
 
-/// Each fitted run's planar analysis in the shape the report and the JSON take for every
-/// model (the window fits the planar Cottrell analysis only).
-fn model_results(runs: &[Run], cell: &Cell) -> Vec<Option<ModelResult>> {
+/// Each fitted run's result, whatever its model.
+fn model_results(runs: &[Run]) -> Vec<Option<ModelResult>> {
     runs.iter()
-        .map(|run| {
-            run.fit_view()
-                .map(|f| ModelResult::from_planar(f.result.clone(), cell, &ModelInputs::default()))
-        })
+        .map(|run| run.fit_view().map(|f| f.result.clone()))
         .collect()
+}
+
+/// The model entries the report's table shows: for each entry, the first fitted run whose
+/// model reads it; a run whose entry differs gets a note of its own, so no run's entry goes
+/// unreported.
+fn report_model_inputs(runs: &[Run], notes: &mut Vec<String>) -> ModelInputs {
+    use diffusor_fit::analysis::ModelKind as K;
+    use diffusor_fit::models::kinetics::BackReaction;
+    let mut merged = ModelInputs::default();
+    let mut first: [Option<&str>; 4] = [None; 4];
+    let words = |i: &ModelInputs, k: usize| -> String {
+        match k {
+            0 => crate::model_form::disk_name(i.disk_expression).to_owned(),
+            1 => match i.back_reaction {
+                Some(BackReaction::QuasiReversible {
+                    kb_over_kf,
+                    dr_over_do,
+                }) => format!("kb/kf = {kb_over_kf}, D_R/D_O = {dr_over_do}"),
+                _ => "none".to_owned(),
+            },
+            2 => i.thickness_m.map_or("not given".to_owned(), |l| {
+                diffusor_trace::format_si(l, "m", 4)
+            }),
+            _ => i.step_v.map_or("from the file".to_owned(), |v| {
+                diffusor_trace::format_si(v, "V", 4)
+            }),
+        }
+    };
+    const WHAT: [&str; 4] = [
+        "disk expression",
+        "back reaction",
+        "film thickness",
+        "step height",
+    ];
+    for run in runs {
+        let (Some(f), Ok(i)) = (run.fit_view(), run.model.inputs()) else {
+            continue;
+        };
+        let model = f.result.model;
+        let uses = [
+            model == K::Microdisk,
+            model == K::Kinetic,
+            model == K::Slab,
+            model == K::CottrellCharging,
+        ];
+        for k in (0..4).filter(|&k| uses[k]) {
+            match first[k] {
+                None => {
+                    first[k] = Some(&run.name);
+                    match k {
+                        0 => merged.disk_expression = i.disk_expression,
+                        1 => merged.back_reaction = i.back_reaction,
+                        2 => merged.thickness_m = i.thickness_m,
+                        _ => merged.step_v = i.step_v,
+                    }
+                }
+                Some(_) if words(&i, k) != words(&merged, k) => notes.push(format!(
+                    "{}: {} {} (the table shows another run's)",
+                    run.name,
+                    WHAT[k],
+                    words(&i, k)
+                )),
+                Some(_) => {}
+            }
+        }
+    }
+    merged
 }
 
 fn run_input<'a>(run: &'a Run, model: Option<&'a ModelResult>) -> RunInput<'a> {
@@ -297,7 +373,7 @@ pub fn write_data_csv(
     writeln!(
         w,
         "# fit: {}, t0 = {:e} s, window {:e} s to {:e} s",
-        r.model, r.t0.value, r.window.lo.time_s, r.window.hi.time_s
+        r.variant, r.t0_s, r.window.lo.time_s, r.window.hi.time_s
     )?;
     writeln!(w, "time_s,current_A,fitted_current_A,residual_A,in_window")?;
     let (lo, hi) = (r.window.lo.time_s, r.window.hi.time_s);

@@ -102,6 +102,12 @@ impl HelpWindow {
             "The start lies past the double-layer charging (5 τ, and where the fitted charging current is below 0.1 % of the faradaic current, or after the leading points that stand significantly above the Cottrell line). The end lies before I·√t departs from its plateau (natural convection) and before edge diffusion reaches 10 % of the current for a disk of the entered size. Type a bound, or drag it on the transient; Automatic window returns to the engine's choice.",
         );
         ui.add_space(6.0);
+        ui.strong("Choosing the model");
+        para(
+            ui,
+            "Each run has its own model, chosen under Model in the Result panel; left at the default, it follows the geometry in the cell form (planar → Cottrell, microdisk → the inlaid-disk expression, sphere or hemisphere → the spherical equation). The geometry check compares the edge share √(πDt)/r over the window with 5 % (this program's convention) and says which model suits the electrode and why; Use it switches to that model. The disk, sphere, kinetic and film models are fitted by Levenberg–Marquardt from the first sample past the charging current to the end of the data; the window can still be typed. The plateau bins, the uncertainty budget and the window sensitivity belong to the Cottrell analysis and are shown for it only.",
+        );
+        ui.add_space(6.0);
         ui.strong("Uncertainty");
         para(
             ui,
@@ -112,7 +118,7 @@ impl HelpWindow {
         para(ui, crate::results::CAUTION);
         para(
             ui,
-            "The model is planar semi-infinite diffusion after a step to the diffusion-limited potential (Cottrell, 1903). Results from transients outside its assumptions — slow kinetics, thin layers, microelectrodes at long times, uncompensated resistance — are flagged where the engine can tell, but not always.",
+            "The default model is planar semi-infinite diffusion after a step to the diffusion-limited potential (Cottrell, 1903); each of the others states its equation, source and range of validity with its result. Results from transients outside its assumptions — slow kinetics, thin layers, microelectrodes at long times, uncompensated resistance — are flagged where the engine can tell, but not always.",
         );
         para(ui, crate::demo::NOTE);
         ui.add_space(6.0);

@@ -32,6 +32,7 @@ pub mod files_window;
 pub mod format;
 pub mod help;
 pub mod messages;
+pub mod model_form;
 pub mod plots;
 pub mod results;
 pub mod runs;

@@ -429,7 +429,7 @@ impl PlotsPanel {
             (
                 f.result.window.lo.time_s,
                 f.result.window.hi.time_s,
-                f.result.plateau.rises_from_s,
+                f.planar().and_then(|p| p.plateau.rises_from_s),
             )
         });
         let drag = self.drag;
@@ -474,7 +474,7 @@ impl PlotsPanel {
                     .map(|t| [time_scale.to_plot(t), y_of(fit.result.predict_a(t))])
                     .collect();
                 plot_ui.line(
-                    Line::new("Cottrell fit", curve)
+                    Line::new("fitted model", curve)
                         .color(ink)
                         .width(2.0)
                         .style(LineStyle::dashed_loose()),
@@ -581,7 +581,13 @@ impl PlotsPanel {
             }
         });
         let fit = focused.and_then(|r| r.fit_view().map(|f| (r, f)));
-        let sd = fit.map_or(1e-9, |(_, f)| f.result.diagnostics.residual_sd_a);
+        // The residual SD sets the unit; a model fitted to charge (Anson) has its SD in C, so
+        // its current residuals are scaled by their own extent.
+        let sd = fit.map_or(1e-9, |(_, f)| match f.planar() {
+            Some(p) => p.diagnostics.residual_sd_a,
+            None if f.result.fitted_quantity == "current" => f.result.residual_sd,
+            None => f.window_residual_max_a / 4.0,
+        });
         let (scale, unit) = prefixed(sd, "A");
         let extent = fit.map_or(1.0, |(_, f)| f.window_residual_max_a / scale * 1.25);
         let time_scale = self.prefs.time;
@@ -646,7 +652,7 @@ fn cottrell_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, 
     let lo_point = fit.map(|(_, f)| {
         let r = &f.result;
         let t = r.window.lo.time_s;
-        ((t - r.t0.value).powf(-0.5), r.predict_a(t))
+        ((t - r.t0_s).powf(-0.5), r.predict_a(t))
     });
     let (scale, unit) = prefixed(lo_point.map_or(1e-6, |p| p.1.abs()), "A");
     let mut plot = Plot::new("cottrell")
@@ -675,7 +681,7 @@ fn cottrell_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, 
         for run in ordered(input.runs, focus_id) {
             let Some(data) = run.data() else { continue };
             let is_focus = Some(run.id) == focus_id;
-            let t0 = run.fit_view().map_or(0.0, |f| f.result.t0.value);
+            let t0 = run.fit_view().map_or(0.0, |f| f.result.t0_s);
             let x_of = |i: usize| (data.time_s[i] - t0).powf(-0.5);
             let n = data.time_s.len();
             // x falls as t grows: the view's right edge is the earliest time in view.
@@ -712,16 +718,31 @@ fn cottrell_ui(ui: &mut egui::Ui, input: &PlotInput<'_>, focused: Option<&Run>, 
         }
         let Some((_, fit)) = fit else { return };
         let r = &fit.result;
-        let x_at = |t: f64| (t - r.t0.value).powf(-0.5);
+        let x_at = |t: f64| (t - r.t0_s).powf(-0.5);
         let (x_lo, x_hi) = (x_at(r.window.lo.time_s), x_at(r.window.hi.time_s));
-        // The model is a straight line in (t − t0)^-½: two points of it, from the origin's
-        // abscissa (t → ∞) to the window's start.
-        let line: Vec<[f64; 2]> = [f64::MAX.sqrt(), r.window.lo.time_s]
-            .into_iter()
-            .map(|t| [x_at(t).max(0.0), r.predict_a(t) / scale])
-            .collect();
+        let (name, line): (&str, Vec<[f64; 2]>) = if fit.planar().is_some() {
+            // The Cottrell model is a straight line in (t − t0)^-½: two points of it, from the
+            // origin's abscissa (t → ∞) to the window's start.
+            (
+                "Cottrell fit",
+                [f64::MAX.sqrt(), r.window.lo.time_s]
+                    .into_iter()
+                    .map(|t| [x_at(t).max(0.0), r.predict_a(t) / scale])
+                    .collect(),
+            )
+        } else {
+            // Another model bends in these coordinates: its curve over the window.
+            (
+                "fitted model",
+                r.curve(200)
+                    .into_iter()
+                    .map(|(t, i)| [x_at(t), i / scale])
+                    .filter(|p| p[0].is_finite() && p[1].is_finite())
+                    .collect(),
+            )
+        };
         plot_ui.line(
-            Line::new("Cottrell fit", line)
+            Line::new(name, line)
                 .color(ink)
                 .width(1.5)
                 .style(LineStyle::dashed_loose()),
@@ -741,15 +762,16 @@ fn plateau_ui(
     ui.strong("I·√t against log t (plateau check)");
     let fit = focused.and_then(|r| r.fit_view().map(|f| (r, f)));
     let s = fit
-        .and_then(|(_, f)| f.result.params.iter().find(|p| p.symbol == "S"))
-        .map_or(1e-6, |p| p.estimate.value.abs());
+        .and_then(|(run, f)| run.data().map(|d| f.plateau_level(d)))
+        .filter(|s| s.is_finite() && *s != 0.0)
+        .map_or(1e-6, f64::abs);
     let (scale, unit) = prefixed(s, "A");
     let mut plot = log_time_axis(Plot::new("plateau").y_axis_min_width(Y_AXIS_WIDTH))
         .y_axis_label(format!("I·√(t − t0) / {unit}·s^½"));
     // Framed on the plateau bins (which start at the window's start) and 2 % of S either side,
     // so a per-cent departure is plain; the charging spike rises out of the top.
-    if let Some((_, f)) = fit {
-        let bins = &f.result.plateau.bin_value;
+    if let Some(p) = fit.and_then(|(_, f)| f.planar()) {
+        let bins = &p.plateau.bin_value;
         let lo = bins.iter().copied().fold(s, f64::min);
         let hi = bins.iter().copied().fold(s, f64::max);
         let pad = 0.15 * (hi - lo) + 0.02 * s;
@@ -792,7 +814,28 @@ fn plateau_ui(
         }
         let Some((_, fit)) = fit else { return };
         let r = &fit.result;
-        let p = &r.plateau;
+        let curve: Vec<[f64; 2]> = log_spaced(r.window.lo.time_s, r.window.hi.time_s, 100)
+            .into_iter()
+            .map(|t| {
+                let root = (t - r.t0_s).sqrt();
+                [Scale::Log.to_plot(t), r.predict_a(t) * root / scale]
+            })
+            .collect();
+        shade_outside(
+            plot_ui,
+            fill,
+            Scale::Log.to_plot(r.window.lo.time_s),
+            Scale::Log.to_plot(r.window.hi.time_s),
+        );
+        let Some(p) = fit.planar().map(|p| &p.plateau) else {
+            // The plateau bins are the Cottrell analysis's; another model shows its curve.
+            plot_ui.line(
+                Line::new("fitted model × √(t − t0)", curve)
+                    .color(ink)
+                    .width(2.0),
+            );
+            return;
+        };
         let mut inside = Vec::new();
         let mut out = Vec::new();
         for k in 0..p.bin_time_s.len() {
@@ -824,23 +867,10 @@ fn plateau_ui(
                     .filled(true),
             );
         }
-        let curve: Vec<[f64; 2]> = log_spaced(r.window.lo.time_s, r.window.hi.time_s, 100)
-            .into_iter()
-            .map(|t| {
-                let root = (t - r.t0.value).sqrt();
-                [Scale::Log.to_plot(t), r.predict_a(t) * root / scale]
-            })
-            .collect();
         plot_ui.line(
             Line::new("fitted plateau S + b·√(t − t0)", curve)
                 .color(ink)
                 .width(2.0),
-        );
-        shade_outside(
-            plot_ui,
-            fill,
-            Scale::Log.to_plot(r.window.lo.time_s),
-            Scale::Log.to_plot(r.window.hi.time_s),
         );
         if let Some(t) = p.rises_from_s {
             plot_ui.vline(

@@ -6,6 +6,8 @@
 
 use std::ops::RangeInclusive;
 
+use diffusor_fit::analysis::{ModelKind, ModelResult};
+use diffusor_fit::models::microdisk::DiskExpression;
 use diffusor_fit::planar::{Estimate, PlanarResult, Sensitivity};
 use eframe::egui::{self, Color32, RichText};
 use egui_plot::{HLine, Line, MarkerShape, Plot, Points, Span, VLine};
@@ -23,6 +25,8 @@ pub enum ResultAction {
     AutomaticWindow,
     /// Read the file again with the columns named.
     ReadAgain,
+    /// The model or one of its entries changed: refit the run.
+    ModelChanged,
 }
 
 /// The "Result" panel's view state (the collapsible sections keep their own).
@@ -42,20 +46,36 @@ pub fn in_trade_units(value: f64, unit: &str) -> String {
         "s" => format::time(value),
         "A" => diffusor_trace::format_si(value, "A", 4),
         "A·s^½" => diffusor_trace::format_si(value, "A·s^½", 5),
+        "m/s" => format!("{} cm/s", sci(value * 1e2, 4)),
+        "mol/m²" => format!("{} mol/cm²", sci(value * 1e-4, 4)),
+        "C" | "F" | "Ω" | "m" | "C/s^½" => diffusor_trace::format_si(value, unit, 4),
+        "1" => sci(value, 4),
         _ => format!("{} {unit}", sci(value, 4)),
     }
 }
 
 /// The headline quantity of a result: its name, the estimate, the factor from SI to the unit
 /// shown and that unit.
-fn headline(r: &PlanarResult) -> Option<(&'static str, Estimate, f64, &'static str)> {
-    if let Some(d) = r.diffusion_m2_s {
+fn headline(r: &ModelResult) -> Option<(&'static str, Estimate, f64, &'static str)> {
+    headline_of(r.diffusion_m2_s, r.area_m2, r.nac_mol_m)
+}
+
+fn headline_of(
+    d: Option<Estimate>,
+    area: Option<Estimate>,
+    nac: Option<Estimate>,
+) -> Option<(&'static str, Estimate, f64, &'static str)> {
+    if let Some(d) = d {
         return Some(("D", d, 1e4, "cm²/s"));
     }
-    if let Some(a) = r.area_m2 {
+    if let Some(a) = area {
         return Some(("A (electroactive)", a, 1e4, "cm²"));
     }
-    r.nac_mol_m.map(|e| ("n·A·C", e, 1e-2, "mol/cm"))
+    nac.map(|e| ("n·A·C", e, 1e-2, "mol/cm"))
+}
+
+fn planar_headline(r: &PlanarResult) -> Option<(&'static str, Estimate, f64, &'static str)> {
+    headline_of(r.diffusion_m2_s, r.area_m2, r.nac_mol_m)
 }
 
 fn estimate_lines_ui(ui: &mut egui::Ui, name: &str, e: Estimate, factor: f64, unit: &str) {
@@ -176,7 +196,9 @@ impl ResultPanel {
                     RichText::new(format!("The fit failed: {e}"))
                         .color(ui.visuals().error_fg_color),
                 );
-                action = window_ui(ui, run, None);
+                action = model_ui(ui, run, None).or(action);
+                ui.separator();
+                action = window_ui(ui, run, None).or(action);
             }
             Some(Ok(fit)) => {
                 let r = &fit.result;
@@ -184,7 +206,14 @@ impl ResultPanel {
                 match headline(r) {
                     Some((name, e, factor, unit)) => {
                         estimate_lines_ui(ui, name, e, factor, unit);
-                        if let Some(b) = &r.budget {
+                        if let Some(c) = r.conc_mol_m3 {
+                            ui.label(format!(
+                                "C = {} mM (95 % interval {} mM), fitted with D",
+                                plain(c.value, 4),
+                                sci_interval(c.ci95[0], c.ci95[1], 4)
+                            ));
+                        }
+                        if let Some(b) = r.planar().and_then(|p| p.budget.as_ref()) {
                             let factor = match b.unit {
                                 "mol/m" => 1e-2,
                                 _ => 1e4,
@@ -205,22 +234,30 @@ impl ResultPanel {
                             ));
                         }
                     }
-                    None => {
+                    None if r.planar().is_some() => {
                         ui.label("Only the Cottrell slope was fitted: enter the area and the concentration for D, or a known D for n·A·C.");
                     }
+                    None => {
+                        ui.label("This model gives no D with these entries; its parameters are listed below.");
+                    }
                 }
-                wrapped(
-                    ui,
-                    RichText::new("The standard error and 95 % interval are the fit's own (widened for correlated residuals); U adds the uncertainties of A and C.")
-                        .small()
-                        .weak(),
-                );
+                let note = if r.planar().is_some() {
+                    "The standard error and 95 % interval are the fit's own (widened for correlated residuals); U adds the uncertainties of A and C."
+                } else {
+                    "The standard error and 95 % interval are the fit's own, from its residuals; the uncertainties of the cell entries are not added for this model."
+                };
+                wrapped(ui, RichText::new(note).small().weak());
                 wrapped(ui, RichText::new(CAUTION).small().weak());
                 ui.separator();
-                action = window_ui(ui, run, Some(r));
+                action = model_ui(ui, run, Some(r)).or(action);
                 ui.separator();
-                warnings_ui(ui, r);
-                details_ui(ui, r);
+                action = window_ui(ui, run, Some(r)).or(action);
+                ui.separator();
+                warnings_ui(ui, &r.warnings);
+                match r.planar() {
+                    Some(p) => details_ui(ui, p),
+                    None => model_details_ui(ui, r),
+                }
             }
         }
         if let Some(data) = run.data() {
@@ -280,7 +317,7 @@ fn columns_ui(ui: &mut egui::Ui, columns: &mut crate::runs::ColumnFields) -> Opt
     action
 }
 
-fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&PlanarResult>) -> Option<ResultAction> {
+fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&ModelResult>) -> Option<ResultAction> {
     ui.strong("Fitting window");
     let mut action = None;
     ui.horizontal(|ui| {
@@ -314,8 +351,7 @@ fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&PlanarResult>) -> Opti
             .small()
             .weak(),
     );
-    if let Some(r) = r {
-        let w = &r.window;
+    if let Some(w) = r.map(|r| &r.window) {
         for (side, b) in [("starts", &w.lo), ("ends", &w.hi)] {
             let lead = if side == "starts" { "Window" } else { "and" };
             let text = if b.automatic {
@@ -334,18 +370,298 @@ fn window_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&PlanarResult>) -> Opti
     action
 }
 
-fn warnings_ui(ui: &mut egui::Ui, r: &PlanarResult) {
-    if r.warnings.is_empty() {
+fn warnings_ui(ui: &mut egui::Ui, warnings: &[String]) {
+    if warnings.is_empty() {
         ui.label("No warnings from the fit.");
         return;
     }
-    ui.strong(format!("Warnings ({})", r.warnings.len()));
-    for w in &r.warnings {
+    ui.strong(format!("Warnings ({})", warnings.len()));
+    for w in warnings {
         ui.horizontal_top(|ui| {
             ui.colored_label(warn_colour(ui), "▲");
-            wrapped(ui, w.message.as_str());
+            wrapped(ui, w.as_str());
         });
     }
+}
+
+/// A small text field for a model entry, with its problem in red under it.
+fn entry_ui(
+    ui: &mut egui::Ui,
+    label: &str,
+    text: &mut String,
+    hint: &str,
+    problem: Option<&String>,
+) -> bool {
+    let mut done = false;
+    ui.horizontal(|ui| {
+        let l = ui.label(label);
+        let r = ui
+            .add(
+                egui::TextEdit::singleline(text)
+                    .desired_width(80.0)
+                    .hint_text(hint),
+            )
+            .labelled_by(l.id);
+        done = r.lost_focus();
+    });
+    if let Some(p) = problem {
+        ui.colored_label(ui.visuals().error_fg_color, p);
+    }
+    done
+}
+
+/// The model of the run: a choice among the engine's models (or its default for the
+/// geometry), the entries the chosen one needs, and what the geometry check recommends.
+fn model_ui(ui: &mut egui::Ui, run: &mut Run, r: Option<&ModelResult>) -> Option<ResultAction> {
+    let heading = ui.strong("Model");
+    let before = run.model.clone();
+    let fields = &mut run.model;
+    let default_label =
+        r.filter(|r| r.choice.by_default)
+            .map_or("Default for the geometry".to_owned(), |r| {
+                format!(
+                    "Default for the geometry: {}",
+                    crate::model_form::label(r.model)
+                )
+            });
+    let shown = match fields.kind {
+        Some(k) => crate::model_form::label(k).to_owned(),
+        None => default_label.clone(),
+    };
+    egui::ComboBox::from_id_salt("model-choice")
+        .selected_text(shown)
+        .width(250.0)
+        .show_ui(ui, |ui| {
+            ui.selectable_value(&mut fields.kind, None, default_label);
+            for k in ModelKind::ALL {
+                ui.selectable_value(&mut fields.kind, Some(k), crate::model_form::label(k))
+                    .on_hover_text(crate::model_form::needs(k));
+            }
+        })
+        .response
+        .labelled_by(heading.id)
+        .on_hover_text("Which transport law is fitted to this run; the cell entries on the left apply to every model");
+    let problems = fields.inputs().err().unwrap_or_default();
+    let mut edited = false;
+    let kind = fields.kind.or(r.map(|r| r.model));
+    match kind {
+        Some(ModelKind::Microdisk) => {
+            ui.horizontal(|ui| {
+                ui.label("Disk expression");
+                ui.radio_value(
+                    &mut fields.disk,
+                    DiskExpression::MahonOldham,
+                    "Mahon–Oldham",
+                )
+                .on_hover_text("Mahon & Oldham (2005), two branches; the more accurate");
+                ui.radio_value(&mut fields.disk, DiskExpression::ShoupSzabo, "Shoup–Szabo")
+                    .on_hover_text("Shoup & Szabo (1982), one closed form within 0.6 %");
+            });
+        }
+        Some(ModelKind::Kinetic) => {
+            ui.checkbox(
+                &mut fields.irreversible,
+                "Negligible back reaction (kb = 0)",
+            );
+            if !fields.irreversible {
+                edited |= entry_ui(
+                    ui,
+                    "kb/kf at the step",
+                    &mut fields.kb_over_kf,
+                    "e.g. 0.05",
+                    problems.kb_over_kf.as_ref(),
+                );
+                edited |= entry_ui(
+                    ui,
+                    "D_R/D_O",
+                    &mut fields.dr_over_do,
+                    "1",
+                    problems.dr_over_do.as_ref(),
+                );
+            }
+        }
+        Some(ModelKind::CottrellCharging) => {
+            edited |= entry_ui(
+                ui,
+                "Step height (mV)",
+                &mut fields.step_mv,
+                "from file",
+                problems.step.as_ref(),
+            );
+        }
+        _ => {}
+    }
+    if kind == Some(ModelKind::Slab) || !fields.thickness_um.trim().is_empty() {
+        edited |= entry_ui(
+            ui,
+            "Film thickness (µm)",
+            &mut fields.thickness_um,
+            "L",
+            problems.thickness.as_ref(),
+        );
+    }
+    let mut action = None;
+    if let Some(r) = r {
+        if let Some(rec) = r.choice.recommended_model() {
+            ui.horizontal_wrapped(|ui| {
+                ui.label(format!(
+                    "Recommended for this electrode: {}",
+                    crate::model_form::label(rec)
+                ));
+                if rec != r.model && ui.small_button("Use it").clicked() {
+                    run.model.kind = Some(rec);
+                    action = Some(ResultAction::ModelChanged);
+                }
+            });
+        }
+        if let Some(rec) = &r.choice.recommended {
+            wrapped(
+                ui,
+                RichText::new(format!("Why: {}", rec.reason)).small().weak(),
+            );
+        }
+        if !r.in_validity_range {
+            wrapped(
+                ui,
+                RichText::new(format!(
+                    "The data lie outside this model's range ({}): {}",
+                    r.validity, r.validity_check
+                ))
+                .color(warn_colour(ui)),
+            );
+        }
+    }
+    let changed = run.model.kind != before.kind
+        || run.model.disk != before.disk
+        || run.model.irreversible != before.irreversible
+        || edited;
+    if changed && run.model.inputs().is_ok() {
+        action = Some(ResultAction::ModelChanged);
+    }
+    action
+}
+
+/// Fit quality, parameters and the model's equation for a model other than Cottrell's.
+fn model_details_ui(ui: &mut egui::Ui, r: &ModelResult) {
+    egui::CollapsingHeader::new("Fit quality")
+        .default_open(true)
+        .show(ui, |ui| {
+            let sd_unit = if r.fitted_quantity == "charge" {
+                "C"
+            } else {
+                "A"
+            };
+            let rows = [
+                ("R²", format!("{:.6}", r.r2)),
+                (
+                    "residual SD",
+                    diffusor_trace::format_si(r.residual_sd, sd_unit, 3),
+                ),
+                ("points", r.points.to_string()),
+                ("degrees of freedom", format!("{:.0}", r.degrees_of_freedom)),
+                (
+                    "solver",
+                    if r.iterations == 0 {
+                        "closed form".to_owned()
+                    } else {
+                        format!(
+                            "{} iterations, {}",
+                            r.iterations,
+                            if r.converged {
+                                "converged"
+                            } else {
+                                "NOT converged"
+                            }
+                        )
+                    },
+                ),
+            ];
+            egui::Grid::new("model-quality")
+                .num_columns(2)
+                .striped(true)
+                .show(ui, |ui| {
+                    for (k, v) in rows {
+                        ui.label(k);
+                        ui.label(v);
+                        ui.end_row();
+                    }
+                });
+            wrapped(
+                ui,
+                RichText::new(format!("background {}", r.background))
+                    .small()
+                    .weak(),
+            );
+        });
+    egui::CollapsingHeader::new("Parameters")
+        .default_open(true)
+        .show(ui, |ui| {
+            params_grid_ui(ui, "model-params", &r.params);
+            let fitted = r.correlations.len();
+            if fitted >= 2 {
+                let mut worst = 0.0_f64;
+                let mut pair = (0, 1);
+                for (i, row) in r.correlations.iter().enumerate() {
+                    for (j, c) in row.iter().enumerate().skip(i + 1) {
+                        if c.abs() > worst.abs() {
+                            worst = *c;
+                            pair = (i, j);
+                        }
+                    }
+                }
+                if let (Some(a), Some(b)) = (r.params.get(pair.0), r.params.get(pair.1)) {
+                    ui.label(format!(
+                        "strongest correlation: r({}, {}) = {worst:.5}",
+                        a.symbol, b.symbol
+                    ));
+                }
+            }
+        });
+    egui::CollapsingHeader::new("Equation and validity")
+        .default_open(false)
+        .show(ui, |ui| {
+            wrapped(ui, RichText::new(r.equation).monospace());
+            wrapped(ui, RichText::new(r.source).small().weak());
+            wrapped(ui, format!("Holds for: {}", r.validity));
+            wrapped(
+                ui,
+                format!(
+                    "{}: {}",
+                    if r.in_validity_range {
+                        "In range"
+                    } else {
+                        "Out of range"
+                    },
+                    r.validity_check
+                ),
+            );
+        });
+}
+
+fn params_grid_ui(ui: &mut egui::Ui, id: &str, params: &[diffusor_fit::planar::Param]) {
+    egui::Grid::new(id)
+        .num_columns(3)
+        .striped(true)
+        .show(ui, |ui| {
+            ui.strong("");
+            ui.strong("value");
+            ui.strong("95 % interval");
+            ui.end_row();
+            for p in params {
+                ui.label(format!("{} ({})", p.symbol, p.name));
+                ui.label(format!(
+                    "{} ± {}",
+                    in_trade_units(p.estimate.value, p.unit),
+                    in_trade_units(p.estimate.std_error, p.unit)
+                ));
+                ui.label(format!(
+                    "{} … {}",
+                    in_trade_units(p.estimate.ci95[0], p.unit),
+                    in_trade_units(p.estimate.ci95[1], p.unit)
+                ));
+                ui.end_row();
+            }
+        });
 }
 
 fn details_ui(ui: &mut egui::Ui, r: &PlanarResult) {
@@ -393,29 +709,7 @@ fn details_ui(ui: &mut egui::Ui, r: &PlanarResult) {
     egui::CollapsingHeader::new("Parameters")
         .default_open(false)
         .show(ui, |ui| {
-            egui::Grid::new("params")
-                .num_columns(3)
-                .striped(true)
-                .show(ui, |ui| {
-                    ui.strong("");
-                    ui.strong("value");
-                    ui.strong("95 % interval");
-                    ui.end_row();
-                    for p in &r.params {
-                        ui.label(format!("{} ({})", p.symbol, p.name));
-                        ui.label(format!(
-                            "{} ± {}",
-                            in_trade_units(p.estimate.value, p.unit),
-                            in_trade_units(p.estimate.std_error, p.unit)
-                        ));
-                        ui.label(format!(
-                            "{} … {}",
-                            in_trade_units(p.estimate.ci95[0], p.unit),
-                            in_trade_units(p.estimate.ci95[1], p.unit)
-                        ));
-                        ui.end_row();
-                    }
-                });
+            params_grid_ui(ui, "params", &r.params);
             if let Some(c) = &r.charging {
                 ui.label(format!(
                     "charging time constant τ = {}{}",
@@ -491,7 +785,7 @@ fn sensitivity_ui(ui: &mut egui::Ui, r: &PlanarResult, s: &Sensitivity) {
         "nAC" => (1e-2, "mol/cm"),
         _ => (1.0, "A·s^½"),
     };
-    let current = headline(r).map(|h| h.1.value * factor);
+    let current = planar_headline(r).map(|h| h.1.value * factor);
     let reference = current
         .or_else(|| s.lower.first().map(|p| p.value * factor))
         .unwrap_or(1.0);
@@ -550,7 +844,7 @@ fn sensitivity_ui(ui: &mut egui::Ui, r: &PlanarResult, s: &Sensitivity) {
         .allow_drag(false)
         .allow_boxed_zoom(false)
         .show(ui, |plot_ui| {
-            if let Some(d) = headline(r) {
+            if let Some(d) = planar_headline(r) {
                 let e = d.1;
                 plot_ui.span(
                     Span::new(

@@ -4,6 +4,7 @@
 use std::path::PathBuf;
 use std::sync::Arc;
 
+use diffusor_fit::analysis::ModelResult;
 use diffusor_fit::planar::PlanarResult;
 use diffusor_fit::window::BoundChoice;
 use diffusor_trace::{Segment, Trace};
@@ -88,15 +89,16 @@ impl RunData {
 /// A fit and the arrays that depend on it, index for index with [`RunData::time_s`].
 #[derive(Debug)]
 pub struct FitView {
-    /// The engine's result.
-    pub result: PlanarResult,
+    /// The engine's result, whatever the model.
+    pub result: ModelResult,
     /// I − I_fit, in A.
     pub residual_a: Vec<f64>,
     /// (t − t0)^-½, in s^-½: the Cottrell plot's abscissa.
     pub inv_sqrt_s: Vec<f64>,
     /// I·√(t − t0), in A·s^½.
     pub i_sqrt_t: Vec<f64>,
-    /// (I − b)·√(t − t0)/S: 1 where the current follows the Cottrell law.
+    /// The current over the model's: (I − b)·√(t − t0)/S for the Cottrell analysis, I/I_fit
+    /// for the other models; 1 where the current follows the model.
     pub normalised: Vec<f64>,
     /// The largest |I − I_fit| inside the window, in A: how far the residual plot must reach.
     pub window_residual_max_a: f64,
@@ -110,15 +112,17 @@ pub struct FitView {
 
 impl FitView {
     /// Prepares the plotted arrays of `result` fitted to `data`.
-    pub fn new(result: PlanarResult, data: &RunData) -> FitView {
-        let t0 = result.t0.value;
-        let slope = result.params.iter().find(|p| p.symbol == "S");
-        let s = slope.map_or(f64::NAN, |p| p.estimate.value);
-        let b = result
-            .params
-            .iter()
-            .find(|p| p.symbol == "b")
-            .map_or(0.0, |p| p.estimate.value);
+    pub fn new(result: ModelResult, data: &RunData) -> FitView {
+        let t0 = result.t0_s;
+        // The Cottrell analysis normalises by its line, so a departure from t^-½ shows; the
+        // other models by their own curve.
+        let line = result.planar().map(|p| {
+            let find = |sym: &str| p.params.iter().find(|q| q.symbol == sym);
+            (
+                find("S").map_or(f64::NAN, |q| q.estimate.value),
+                find("b").map_or(0.0, |q| q.estimate.value),
+            )
+        });
         let n = data.time_s.len();
         let mut residual_a = Vec::with_capacity(n);
         let mut inv_sqrt_s = Vec::with_capacity(n);
@@ -127,10 +131,14 @@ impl FitView {
         for (&t, &i) in data.time_s.iter().zip(&data.current_a) {
             let dt = t - t0;
             let root = if dt > 0.0 { dt.sqrt() } else { f64::NAN };
-            residual_a.push(i - result.predict_a(t));
+            let fitted = result.predict_a(t);
+            residual_a.push(i - fitted);
             inv_sqrt_s.push(1.0 / root);
             i_sqrt_t.push(i * root);
-            normalised.push((i - b) * root / s);
+            normalised.push(match line {
+                Some((s, b)) => (i - b) * root / s,
+                None => i / fitted,
+            });
         }
         let w = &result.window;
         let a = data.time_s.partition_point(|&t| t < w.lo.time_s);
@@ -150,6 +158,35 @@ impl FitView {
             i_sqrt_t,
             normalised,
         }
+    }
+
+    /// The Cottrell analysis, when that is the model fitted.
+    pub fn planar(&self) -> Option<&PlanarResult> {
+        self.result.planar()
+    }
+
+    /// I·√t where the current follows t^-½, in A·s^½: the Cottrell slope S, or else the median
+    /// of I·√(t − t0) over the window (a scale for the plateau plot).
+    pub fn plateau_level(&self, data: &RunData) -> f64 {
+        if let Some(s) = self
+            .planar()
+            .and_then(|p| p.params.iter().find(|q| q.symbol == "S"))
+        {
+            return s.estimate.value;
+        }
+        let w = &self.result.window;
+        let a = data.time_s.partition_point(|&t| t < w.lo.time_s);
+        let z = data.time_s.partition_point(|&t| t <= w.hi.time_s);
+        let mut v: Vec<f64> = self.i_sqrt_t[a..z.max(a)]
+            .iter()
+            .copied()
+            .filter(|x| x.is_finite())
+            .collect();
+        if v.is_empty() {
+            return f64::NAN;
+        }
+        let mid = v.len() / 2;
+        *v.select_nth_unstable_by(mid, f64::total_cmp).1
     }
 }
 
@@ -296,6 +333,8 @@ pub struct Run {
     pub notice: Option<String>,
     /// The columns named for the import.
     pub columns: ColumnFields,
+    /// The model asked for and its entries.
+    pub model: crate::model_form::ModelFields,
 }
 
 impl Run {

@@ -5,10 +5,12 @@
 //! Reading is strict and all-or-nothing: [`parse`] either returns a complete [`Session`] or a
 //! message, so the window's state is replaced only by a file that was read in full.
 
+use diffusor_fit::analysis::ModelKind;
 use diffusor_fit::cell::Geometry;
 use serde::{Deserialize, Serialize};
 
 use crate::cell_form::{CellForm, FitChoices, QuantityField, SizeKind};
+use crate::model_form::{self, ModelFields};
 use crate::units::{TemperatureUnit, UncertaintyMode, UnitChoice};
 
 /// The schema this version writes and reads.
@@ -18,8 +20,87 @@ const FAMILY: &str = "diffusor.session/";
 /// The version number of [`SCHEMA`].
 const VERSION: u64 = 1;
 
-/// The only model the window fits so far (the name `diffusor.fit/1` gives it).
-pub const PLANAR_MODEL: &str = "planar-cottrell";
+/// The model of a run left to the engine (the default for the cell's geometry).
+pub const GEOMETRY_DEFAULT: &str = "geometry-default";
+/// What sessions saved before the window offered other models call the planar model (the
+/// name `diffusor.fit/1` gives the Cottrell analysis); they fitted nothing else.
+const EARLIER_PLANAR: &str = "planar-cottrell";
+
+/// The session's name for a run's model choice: [`GEOMETRY_DEFAULT`] or the command line's
+/// name ([`ModelKind::name`]).
+pub fn model_name(kind: Option<ModelKind>) -> &'static str {
+    kind.map_or(GEOMETRY_DEFAULT, ModelKind::name)
+}
+
+/// The model choice a session names.
+///
+/// # Errors
+///
+/// For a name this version does not know, the message to show beside the run.
+pub fn model_kind(name: &str) -> Result<Option<ModelKind>, String> {
+    match name {
+        GEOMETRY_DEFAULT => Ok(None),
+        EARLIER_PLANAR => Ok(Some(ModelKind::Cottrell)),
+        other => ModelKind::from_name(other).map(Some).ok_or_else(|| {
+            format!(
+                "saved with the model “{other}”, which this version does not offer: fitted with the default for the geometry"
+            )
+        }),
+    }
+}
+
+/// A run's model entries as typed (see [`ModelFields`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct ModelEntries {
+    /// `mahon-oldham` or `shoup-szabo`.
+    pub disk_expression: String,
+    /// Whether the kinetic model's back reaction is negligible.
+    pub irreversible: bool,
+    /// kb/kf, as typed.
+    pub kb_over_kf: String,
+    /// D_R/D_O, as typed.
+    pub dr_over_do: String,
+    /// Film thickness in µm, as typed.
+    pub thickness_um: String,
+    /// Step height in mV, as typed.
+    pub step_mv: String,
+}
+
+impl Default for ModelEntries {
+    fn default() -> Self {
+        ModelEntries::of(&ModelFields::default())
+    }
+}
+
+impl ModelEntries {
+    /// The entries of `fields`, without the choice of model (saved beside them).
+    pub fn of(fields: &ModelFields) -> ModelEntries {
+        ModelEntries {
+            disk_expression: model_form::disk_name(fields.disk).to_owned(),
+            irreversible: fields.irreversible,
+            kb_over_kf: fields.kb_over_kf.clone(),
+            dr_over_do: fields.dr_over_do.clone(),
+            thickness_um: fields.thickness_um.clone(),
+            step_mv: fields.step_mv.clone(),
+        }
+    }
+
+    /// The fields these entries describe, with the model `kind`, or what is wrong with them.
+    pub fn fields(&self, kind: Option<ModelKind>) -> Result<ModelFields, String> {
+        let disk = model_form::disk_from_name(&self.disk_expression)
+            .ok_or_else(|| format!("unknown disk expression “{}”", self.disk_expression))?;
+        Ok(ModelFields {
+            kind,
+            disk,
+            irreversible: self.irreversible,
+            kb_over_kf: self.kb_over_kf.clone(),
+            dr_over_do: self.dr_over_do.clone(),
+            thickness_um: self.thickness_um.clone(),
+            step_mv: self.step_mv.clone(),
+        })
+    }
+}
 
 /// A saved session.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -72,8 +153,11 @@ pub struct SessionRun {
     pub window_lo_s: SavedBound,
     /// The window's upper bound, in s after the step (`null`: automatic).
     pub window_hi_s: SavedBound,
-    /// The model fitted.
+    /// The model asked for: [`GEOMETRY_DEFAULT`] or the command line's name of a model.
     pub model: String,
+    /// The entries some models need (absent in sessions saved before there were any).
+    #[serde(default)]
+    pub model_entries: ModelEntries,
     /// The time column named for the import (a position from 1 or header text; empty: the
     /// importer's choice).
     #[serde(default)]
@@ -311,6 +395,9 @@ pub fn parse(text: &str, file: &str) -> Result<Session, String> {
         ));
     }
     for run in &session.runs {
+        run.model_entries
+            .fields(None)
+            .map_err(|e| format!("the session file is damaged ({e}): {file}"))?;
         for b in [run.window_lo_s, run.window_hi_s].into_iter().flatten() {
             if !(b.is_finite() && b >= 0.0) {
                 return Err(format!(
@@ -342,7 +429,12 @@ mod tests {
                 selected: true,
                 window_lo_s: Some(0.01),
                 window_hi_s: None,
-                model: PLANAR_MODEL.to_owned(),
+                model: "microdisk".to_owned(),
+                model_entries: ModelEntries {
+                    disk_expression: "shoup-szabo".to_owned(),
+                    thickness_um: "2.5".to_owned(),
+                    ..ModelEntries::default()
+                },
                 time_column: "1".to_owned(),
                 current_column: String::new(),
             }],
@@ -379,10 +471,41 @@ mod tests {
                 .expect_err("cut short")
                 .starts_with("not a session file: it is not valid JSON (line ")
         );
+        let bad_disk = sample().to_json().replace("shoup-szabo", "elliptic");
+        assert_eq!(
+            parse(&bad_disk, "d.json").expect_err("bad disk"),
+            "the session file is damaged (unknown disk expression “elliptic”): d.json"
+        );
         let bad_unit = sample().to_json().replace("\"cm²\"", "\"furlong²\"");
         assert_eq!(
             parse(&bad_unit, "u.json").expect_err("bad unit"),
             "the session file is damaged (unknown area unit “furlong²”): u.json"
+        );
+    }
+
+    #[test]
+    fn model_names_read_back_and_earlier_sessions_meant_planar() {
+        for k in ModelKind::ALL {
+            assert_eq!(model_kind(model_name(Some(k))), Ok(Some(k)));
+        }
+        assert_eq!(model_kind(model_name(None)), Ok(None));
+        assert_eq!(model_kind("planar-cottrell"), Ok(Some(ModelKind::Cottrell)));
+        assert!(model_kind("warped").is_err());
+        // A run saved before model entries existed reads with the defaults.
+        let old = sample()
+            .to_json()
+            .replace("\"model\": \"microdisk\"", "\"model\": \"planar-cottrell\"");
+        let v: serde_json::Value = serde_json::from_str(&old).expect("json");
+        let mut v = v;
+        v["runs"][0]
+            .as_object_mut()
+            .expect("run")
+            .remove("model_entries");
+        let back = parse(&v.to_string(), "old.json").expect("an earlier session");
+        assert_eq!(back.runs[0].model_entries, ModelEntries::default());
+        assert_eq!(
+            back.runs[0].model_entries.fields(None).expect("fields"),
+            ModelFields::default()
         );
     }
 }

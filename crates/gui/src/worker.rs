@@ -7,8 +7,9 @@ use std::sync::Arc;
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::mpsc::{Receiver, Sender, TryRecvError, channel};
 
+use diffusor_fit::analysis::{ModelInputs, ModelKind, analyze_model};
 use diffusor_fit::cell::Cell;
-use diffusor_fit::planar::{PlanarOptions, analyze};
+use diffusor_fit::planar::PlanarOptions;
 use diffusor_trace::{ImportOptions, import_bytes};
 use eframe::egui;
 use sha2::{Digest, Sha256};
@@ -62,6 +63,10 @@ pub enum Job {
         cell: Cell,
         /// The options, window included (boxed: they are most of the job's size).
         options: Box<PlanarOptions>,
+        /// The model asked for; `None` for the geometry's default.
+        model: Option<ModelKind>,
+        /// What the model needs besides the cell.
+        inputs: Box<ModelInputs>,
     },
 }
 
@@ -239,8 +244,10 @@ fn run_job(job: Job) -> Outcome {
             data,
             cell,
             options,
+            model,
+            inputs,
         } => {
-            let result = analyze(&data.trace, &data.step, &cell, &options)
+            let result = analyze_model(&data.trace, &data.step, &cell, &options, model, &inputs)
                 .map(|r| Arc::new(FitView::new(r, &data)))
                 .map_err(|e| e.to_string());
             Outcome::Fitted {

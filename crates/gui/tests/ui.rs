@@ -614,6 +614,87 @@ fn a_saved_session_reopens_the_same_inputs_windows_and_results() {
     assert!(h.state().runs().iter().all(|r| r.notice.is_none()));
 }
 
+/// Picks `model` in the Result panel's model list, as a user would.
+fn choose_model(h: &mut Harness<'_, DiffusorApp>, model: &str) {
+    h.get_by_role_and_label(Role::ComboBox, "Model").click();
+    h.run();
+    h.get_by_label(model).click();
+    // The refit starts at once: the spinner keeps the window repainting until it is done.
+    h.step();
+}
+
+#[test]
+fn a_run_takes_another_model_and_a_session_keeps_it() {
+    use diffusor_fit::analysis::ModelKind;
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    let name = "planar-rep1.csv (demo)";
+    let planar = run_named(&h, name).fit_view().expect("fit").clone();
+    assert_eq!(planar.result.model, ModelKind::Cottrell);
+    assert!(planar.result.choice.by_default);
+
+    choose_model(&mut h, "Planar + charging decay, every point");
+    settle(&mut h);
+    let run = run_named(&h, name);
+    assert_eq!(run.model.kind, Some(ModelKind::CottrellCharging));
+    let fit = run.fit_view().expect("refitted").clone();
+    assert_eq!(fit.result.model, ModelKind::CottrellCharging);
+    assert!(!fit.result.choice.by_default);
+    // This model starts at the first sample after the step (it fits the charging decay).
+    assert!(fit.result.window.points > planar.result.window.points);
+    // The window shows what the engine gives for the same bytes, cell and model.
+    let trace =
+        diffusor_trace::import_bytes("planar-rep1.csv", REP1, &Default::default()).expect("import");
+    let step = trace.steps().next().expect("a step").clone();
+    let cell = diffusor_gui::cell_form::CellForm::demo()
+        .cell()
+        .expect("demo cell");
+    let direct = diffusor_fit::analysis::analyze_model(
+        &trace,
+        &step,
+        &cell,
+        &PlanarOptions::default(),
+        Some(ModelKind::CottrellCharging),
+        &Default::default(),
+    )
+    .expect("fit");
+    assert_eq!(fit.result.diffusion_m2_s, direct.diffusion_m2_s);
+    let d = fit.result.diffusion_m2_s.expect("D").value * 1e4;
+    h.get_by_label(&format!("D = {} cm²/s", sci(d, 4)));
+    // The other runs keep their own model.
+    let rep2 = run_named(&h, "planar-rep2.csv (demo)");
+    assert_eq!(rep2.model.kind, None);
+    assert_eq!(
+        rep2.fit_view().expect("fit").result.model,
+        ModelKind::Cottrell
+    );
+    // The model's equation and source are shown with it.
+    h.get_by_label_contains("Equation and validity");
+
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let path = dir.path().join("models.json");
+    save_through_the_window(
+        &mut h,
+        "Session (runs, cell entries, windows; to reopen later)",
+        &path,
+    );
+    let text = std::fs::read_to_string(&path).expect("saved");
+    assert!(text.contains("\"model\": \"cottrell-charging\""), "{text}");
+    assert!(text.contains("\"model\": \"geometry-default\""), "{text}");
+
+    let mut h = harness(DiffusorApp::demo());
+    settle(&mut h);
+    open_session_through_the_window(&mut h, &path);
+    settle(&mut h);
+    let back = run_named(&h, name);
+    assert_eq!(back.model.kind, Some(ModelKind::CottrellCharging));
+    let again = back.fit_view().expect("fit").result.diffusion_m2_s;
+    assert_eq!(
+        again, fit.result.diffusion_m2_s,
+        "the same numbers, bit for bit"
+    );
+}
+
 #[test]
 fn corrupt_foreign_and_newer_sessions_are_refused_and_change_nothing() {
     let mut h = harness(DiffusorApp::demo());
