@@ -283,7 +283,7 @@ fn import_from(
     file: &str,
     head: &[u8],
     at_eof: bool,
-    rest: &mut dyn Read,
+    rest: &mut (dyn Read + Send),
     total_bytes: Option<u64>,
     decoded_from: Option<TextEncoding>,
     options: &ImportOptions,
@@ -337,7 +337,13 @@ fn import_from(
         .chain(roles.potential)
         .chain(roles.charge)
         .collect();
-    let threads = if options.threads == 0 {
+    let data = &head[sniffed.data_offset..];
+    let remaining =
+        total_bytes.map(|total| total.saturating_sub((start + sniffed.data_offset) as u64));
+    let threads = if remaining.is_some_and(|r| r < parse::PARALLEL_MIN) {
+        // One block: not worth a thread.
+        1
+    } else if options.threads == 0 {
         std::thread::available_parallelism()
             .map_or(1, usize::from)
             .min(8)
@@ -351,13 +357,12 @@ fn import_from(
         fields: sniffed.dialect.fields,
         wanted,
         threads,
+        block: parse::BLOCK,
     };
-    let data = &head[sniffed.data_offset..];
-    let capacity = match total_bytes {
-        Some(total) => {
+    let capacity = match remaining {
+        Some(remaining) => {
             let lines = memchr::memchr_iter(spec.eol, data).count().max(1);
             let per_line = (data.len() / lines).max(1) as u64;
-            let remaining = total.saturating_sub((start + sniffed.data_offset) as u64);
             (remaining / per_line + 16) as usize
         }
         None => 0,
