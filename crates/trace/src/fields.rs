@@ -265,10 +265,10 @@ pub(crate) struct Shape {
     literal: u128,
     /// Keeps the bytes before the mark; the bytes after it move down one to close the gap.
     before_mark: u128,
-    /// Shift (bits) that brings the first mantissa digit to the lowest byte.
-    first_digit: u32,
     /// Mantissa digits, 1 to 15 (so the mantissa is below 2^53).
     digits: u32,
+    /// Whether the mantissa (digits and mark) lies in the first eight bytes.
+    mantissa_in_low: bool,
     /// Digits after the mark, subtracted from the exponent.
     fraction: i32,
     /// Shift (bits) that brings the first exponent digit to the lowest byte.
@@ -293,8 +293,8 @@ impl Shape {
             literal_mask: 0,
             literal: 0,
             before_mark: u128::MAX,
-            first_digit: 0,
             digits: 0,
+            mantissa_in_low: false,
             fraction: 0,
             exp_at: 0,
             exp_digits: 0,
@@ -325,6 +325,7 @@ impl Shape {
         if !(1..=15).contains(&shape.digits) {
             return None;
         }
+        shape.mantissa_in_low = i <= 8;
         if matches!(text.get(i), Some(b'e' | b'E')) {
             literal(&mut shape, i);
             i += 1;
@@ -360,16 +361,26 @@ impl Shape {
         if (not_digit & self.digit_mask) | ((window & self.literal_mask) ^ self.literal) != 0 {
             return None;
         }
-        let joined = (x & self.before_mark) | ((x >> 8) & !self.before_mark);
-        let d = joined >> self.first_digit;
-        let mantissa = if self.digits <= 8 {
-            eight_digits((d as u64) << (8 * (8 - self.digits)))
+        let mantissa = if self.mantissa_in_low {
+            // The common case (`1.234567e-05`, `0.0125`): one 64-bit word holds the mantissa.
+            let (x, keep) = (x as u64, self.before_mark as u64);
+            let joined = (x & keep) | ((x >> 8) & !keep);
+            eight_digits(joined << (8 * (8 - self.digits)))
         } else {
-            let high = self.digits - 8;
-            eight_digits((d as u64) << (8 * (8 - high))) * 100_000_000
-                + eight_digits((d >> (8 * high)) as u64)
+            let d = (x & self.before_mark) | ((x >> 8) & !self.before_mark);
+            if self.digits <= 8 {
+                eight_digits((d as u64) << (8 * (8 - self.digits)))
+            } else {
+                let high = self.digits - 8;
+                eight_digits((d as u64) << (8 * (8 - high))) * 100_000_000
+                    + eight_digits((d >> (8 * high)) as u64)
+            }
         };
-        let e = (x >> self.exp_at) as u64;
+        let e = if self.exp_at >= 64 {
+            ((x >> 64) as u64) >> (self.exp_at - 64)
+        } else {
+            (x >> self.exp_at) as u64
+        };
         let exp = match self.exp_digits {
             0 => 0,
             1 => (e & 0xFF) as i32,
