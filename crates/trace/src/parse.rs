@@ -298,28 +298,38 @@ fn parse_part(bytes: &[u8], first_line: u64, spec: &Spec, out: &mut Parsed) -> u
             // so that a file of ever-changing layouts loses little to the learning).
             let mut layout: Option<PairLayout> = None;
             let mut misses = 0u32;
+            // The columns as locals while the loop runs, so their lengths can stay in registers.
+            let mut first = std::mem::take(&mut out.columns[0]);
+            let mut second = std::mem::take(&mut out.columns[1]);
             loop {
-                let (a, b, next) =
-                    if let Some(row) = layout.as_ref().and_then(|l| l.read(bytes, pos, d, eol)) {
+                if let Some(l) = &layout {
+                    let start = run;
+                    while let Some((a, b, next)) = l.read(bytes, pos, d, eol) {
+                        let (x, y) = if swap { (b, a) } else { (a, b) };
+                        first.push(x);
+                        second.push(y);
+                        pos = next;
+                        run += 1;
+                    }
+                    if run > start {
                         misses = 0;
-                        row
-                    } else if let Some((a, b, next, used_a, used_b)) =
-                        fast_pair(bytes, pos, d, mark, eol)
-                    {
-                        misses = misses.saturating_add(1);
-                        if misses.is_power_of_two() {
-                            layout = PairLayout::learn(bytes, pos, (used_a, used_b), next, mark);
-                        }
-                        (a, b, next)
-                    } else {
-                        break;
-                    };
+                    }
+                }
+                let Some((a, b, next, used_a, used_b)) = fast_pair(bytes, pos, d, mark, eol) else {
+                    break;
+                };
+                misses = misses.saturating_add(1);
+                if misses.is_power_of_two() {
+                    layout = PairLayout::learn(bytes, pos, (used_a, used_b), next, mark);
+                }
                 let (x, y) = if swap { (b, a) } else { (a, b) };
-                out.columns[0].push(x);
-                out.columns[1].push(y);
+                first.push(x);
+                second.push(y);
                 pos = next;
                 run += 1;
             }
+            out.columns[0] = first;
+            out.columns[1] = second;
             line_no += run;
             if run > 0 {
                 continue;
