@@ -271,17 +271,24 @@ pub(crate) struct Shape {
     mantissa_in_low: bool,
     /// Digits after the mark, subtracted from the exponent.
     fraction: i32,
-    /// Shift (bits) that brings the first exponent digit to the lowest byte.
-    exp_at: u32,
-    /// Exponent digits, 0 to 2.
-    exp_digits: u32,
-    exp_negative: bool,
+    /// Whether the exponent digits lie in the second eight bytes (else in the first).
+    exp_high: bool,
+    /// Shift (bits) that brings the first exponent digit to the lowest byte of its word.
+    exp_shift: u32,
+    /// Keeps the exponent's digit values: 0, 0xFF or 0xFFFF for 0, 1 or 2 digits.
+    exp_keep: u64,
+    /// Multiplier that puts the exponent's value in the second byte: 0x100 for one digit,
+    /// 0x0A01 for two (the first digit times 10 plus the second).
+    exp_combine: u64,
+    /// +1, or -1 for a negative exponent.
+    exp_sign: i32,
 }
 
 impl Shape {
     /// Learns the layout of `text`, a whole unsigned number with the decimal mark `mark`, when
     /// it is one that [`Shape::read`] can read exactly: at most 16 bytes, 1 to 15 mantissa
-    /// digits, at most two exponent digits.
+    /// digits, at most two exponent digits (both in the first or both in the second eight
+    /// bytes).
     pub(crate) fn learn(text: &[u8], mark: u8) -> Option<Shape> {
         let len = text.len();
         if len == 0 || len > 16 {
@@ -296,9 +303,11 @@ impl Shape {
             digits: 0,
             mantissa_in_low: false,
             fraction: 0,
-            exp_at: 0,
-            exp_digits: 0,
-            exp_negative: false,
+            exp_high: false,
+            exp_shift: 0,
+            exp_keep: 0,
+            exp_combine: 0,
+            exp_sign: 1,
         };
         let literal = |shape: &mut Shape, i: usize| {
             shape.literal_mask |= 0xFF << (8 * i);
@@ -330,19 +339,31 @@ impl Shape {
             literal(&mut shape, i);
             i += 1;
             if matches!(text.get(i), Some(b'-' | b'+')) {
-                shape.exp_negative = text[i] == b'-';
+                if text[i] == b'-' {
+                    shape.exp_sign = -1;
+                }
                 literal(&mut shape, i);
                 i += 1;
             }
-            shape.exp_at = 8 * i as u32;
+            let at = i;
             while digit(i) {
                 shape.digit_mask |= 0x80 << (8 * i);
-                shape.exp_digits += 1;
                 i += 1;
             }
-            if !(1..=2).contains(&shape.exp_digits) {
+            let (keep, combine) = match i - at {
+                1 => (0xFF, 0x100),
+                2 => (0xFFFF, 0x0A01),
+                _ => return None,
+            };
+            // Both exponent digits in one of the two words (a number that puts them astride
+            // is left to the bytewise reader).
+            if at < 8 && i > 8 {
                 return None;
             }
+            shape.exp_high = at >= 8;
+            shape.exp_shift = 8 * (at % 8) as u32;
+            shape.exp_keep = keep;
+            shape.exp_combine = combine;
         }
         (i == len).then_some(shape)
     }
@@ -376,17 +397,13 @@ impl Shape {
                     + eight_digits((d >> (8 * high)) as u64)
             }
         };
-        let e = if self.exp_at >= 64 {
-            ((x >> 64) as u64) >> (self.exp_at - 64)
+        let word = if self.exp_high {
+            (x >> 64) as u64
         } else {
-            (x >> self.exp_at) as u64
+            x as u64
         };
-        let exp = match self.exp_digits {
-            0 => 0,
-            1 => (e & 0xFF) as i32,
-            _ => ((e & 0xFF) * 10 + ((e >> 8) & 0xFF)) as i32,
-        };
-        let scale = if self.exp_negative { -exp } else { exp } - self.fraction;
+        let exp = ((((word >> self.exp_shift) & self.exp_keep) * self.exp_combine) >> 8) & 0xFF;
+        let scale = exp as i32 * self.exp_sign - self.fraction;
         let m = mantissa as f64;
         if (0..=22).contains(&scale) {
             Some(m * EXACT_POW10[scale as usize])
