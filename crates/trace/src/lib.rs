@@ -214,6 +214,22 @@ fn median_interval(time: &[f64]) -> f64 {
     *d.select_nth_unstable_by(mid, f64::total_cmp).1
 }
 
+/// The first index `i` with `t[i] <= t[i - 1]`, if any. Blocks of samples are first tested
+/// with a branch-free fold the compiler can vectorise; only a block that fails is searched.
+fn first_not_increasing(t: &[f64]) -> Option<usize> {
+    const BLOCK: usize = 4096;
+    let mut start = 1;
+    while start < t.len() {
+        let end = (start + BLOCK).min(t.len());
+        let pairs = t[start - 1..end].windows(2);
+        if pairs.fold(false, |bad, w| bad | (w[1] <= w[0])) {
+            return (start..end).find(|&i| t[i] <= t[i - 1]);
+        }
+        start = end;
+    }
+    None
+}
+
 /// Reads a file.
 pub fn import_path(path: &Path, options: &ImportOptions) -> Result<Trace, ImportError> {
     let file = path.display().to_string();
@@ -283,7 +299,7 @@ fn import_from(
     file: &str,
     head: &[u8],
     at_eof: bool,
-    rest: &mut dyn Read,
+    rest: &mut (dyn Read + Send),
     total_bytes: Option<u64>,
     decoded_from: Option<TextEncoding>,
     options: &ImportOptions,
@@ -337,7 +353,13 @@ fn import_from(
         .chain(roles.potential)
         .chain(roles.charge)
         .collect();
-    let threads = if options.threads == 0 {
+    let data = &head[sniffed.data_offset..];
+    let remaining =
+        total_bytes.map(|total| total.saturating_sub((start + sniffed.data_offset) as u64));
+    let threads = if remaining.is_some_and(|r| r < parse::PARALLEL_MIN) {
+        // One block: not worth a thread.
+        1
+    } else if options.threads == 0 {
         std::thread::available_parallelism()
             .map_or(1, usize::from)
             .min(8)
@@ -351,13 +373,12 @@ fn import_from(
         fields: sniffed.dialect.fields,
         wanted,
         threads,
+        block: parse::BLOCK,
     };
-    let data = &head[sniffed.data_offset..];
-    let capacity = match total_bytes {
-        Some(total) => {
+    let capacity = match remaining {
+        Some(remaining) => {
             let lines = memchr::memchr_iter(spec.eol, data).count().max(1);
             let per_line = (data.len() / lines).max(1) as u64;
-            let remaining = total.saturating_sub((start + sniffed.data_offset) as u64);
             (remaining / per_line + 16) as usize
         }
         None => 0,
@@ -744,7 +765,7 @@ fn build_trace(
     let potential_v = roles.potential.map(&mut take);
     let charge_c = roles.charge.map(&mut take);
 
-    if let Some(i) = (1..time_s.len()).find(|&i| time_s[i] <= time_s[i - 1]) {
+    if let Some(i) = first_not_increasing(&time_s) {
         let line = parsed.line_of_row(i);
         return Err(if time_s[i] == time_s[i - 1] {
             ImportError::DuplicateTime {
@@ -834,7 +855,7 @@ fn build_trace(
         time_s.iter_mut().for_each(|t| *t -= t0);
         // Subtraction keeps the order but can merge samples whose spacing is below the
         // precision of their magnitude.
-        if let Some(i) = (1..time_s.len()).find(|&i| time_s[i] <= time_s[i - 1]) {
+        if let Some(i) = first_not_increasing(&time_s) {
             return Err(ImportError::TimeResolution {
                 file: file.to_owned(),
                 line: parsed.line_of_row(i),
@@ -899,4 +920,32 @@ fn build_trace(
         polarity,
         warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn first_not_increasing_is_the_first_failing_index() {
+        let reference = |t: &[f64]| (1..t.len()).find(|&i| t[i] <= t[i - 1]);
+        let rising: Vec<f64> = (0..20_000).map(|i| i as f64 * 1e-3).collect();
+        assert_eq!(first_not_increasing(&rising), None);
+        assert_eq!(first_not_increasing(&[]), None);
+        assert_eq!(first_not_increasing(&[1.0]), None);
+        for at in [1, 2, 4095, 4096, 4097, 8192, 12_000, 19_999] {
+            for fault in [0.0, -1.0, f64::NAN] {
+                let mut t = rising.clone();
+                // An equal time, a step back, or a NaN (which compares false, as in the reference).
+                t[at] = if fault.is_nan() {
+                    f64::NAN
+                } else {
+                    t[at - 1] + fault
+                };
+                assert_eq!(first_not_increasing(&t), reference(&t), "{at} {fault}");
+                t[at + 100.min(19_999 - at)] = -5.0;
+                assert_eq!(first_not_increasing(&t), reference(&t), "{at} {fault}");
+            }
+        }
+    }
 }

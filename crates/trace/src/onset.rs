@@ -198,7 +198,7 @@ pub(crate) fn current_step(current: &[f64]) -> Option<usize> {
     if n < 8 {
         return None;
     }
-    let peak = (0..n).max_by(|&a, &b| current[a].abs().total_cmp(&current[b].abs()))?;
+    let peak = last_peak(current)?;
     if peak < 2 {
         return None;
     }
@@ -218,6 +218,42 @@ pub(crate) fn current_step(current: &[f64]) -> Option<usize> {
     let size = (current[jump + 1] - current[jump]).abs();
     let rise = (current[peak] - level).abs();
     (size > 0.3 * rise && rise > 20.0 * noise).then_some(jump + 1)
+}
+
+/// The last index of the largest magnitude in `values` (finite, as the importer keeps only
+/// finite values): what `(0..n).max_by(|a, b| v[a].abs().total_cmp(&v[b].abs()))` returns, in
+/// one pass of per-block maxima over four independent lanes, then a search of the last block
+/// that holds the maximum.
+fn last_peak(values: &[f64]) -> Option<usize> {
+    const BLOCK: usize = 1024;
+    let mut best = f64::NEG_INFINITY;
+    let mut best_block = None;
+    for (k, block) in values.chunks(BLOCK).enumerate() {
+        let mut lanes = [0.0f64; 4];
+        let mut quads = block.chunks_exact(4);
+        for q in &mut quads {
+            for (lane, v) in lanes.iter_mut().zip(q) {
+                let a = v.abs();
+                *lane = if a > *lane { a } else { *lane };
+            }
+        }
+        let mut m = lanes
+            .into_iter()
+            .fold(0.0f64, |m, a| if a > m { a } else { m });
+        for v in quads.remainder() {
+            m = if v.abs() > m { v.abs() } else { m };
+        }
+        if m >= best {
+            best = m;
+            best_block = Some(k);
+        }
+    }
+    let start = best_block? * BLOCK;
+    let block = &values[start..(start + BLOCK).min(values.len())];
+    block
+        .iter()
+        .rposition(|v| v.abs() == best)
+        .map(|i| start + i)
 }
 
 /// Sign of the current in `current` relative to `reference`, from the mean over the segment.
@@ -246,6 +282,31 @@ pub(crate) fn median_of(values: &[f64]) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn last_peak_is_what_max_by_gives() {
+        let reference = |v: &[f64]| (0..v.len()).max_by(|&a, &b| v[a].abs().total_cmp(&v[b].abs()));
+        let mut state = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = move || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            state
+        };
+        for len in [0, 1, 3, 4, 5, 1023, 1024, 1025, 4099, 20_000] {
+            for _ in 0..20 {
+                // Few distinct values, so that ties (and -0.0 against 0.0) are common.
+                let v: Vec<f64> = (0..len)
+                    .map(|_| match next() % 7 {
+                        0 => -0.0,
+                        1 => 0.0,
+                        k => (k as f64 - 4.0) * [1.0, 1e-9][(next() % 2) as usize],
+                    })
+                    .collect();
+                assert_eq!(last_peak(&v), reference(&v), "{len}");
+            }
+        }
+    }
 
     #[test]
     fn finds_single_and_double_steps() {
