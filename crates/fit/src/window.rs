@@ -443,6 +443,8 @@ pub(crate) fn plateau_check(
     let nb = edges.len() - 1;
     // Per bin: Σ I·√t, and the squared differences of neighbouring I·√t with their count
     // (the bin's own noise, which a trend inside the bin barely touches).
+    // Where the charging tail is still subtracted; past it the current is read as it is.
+    let tail_index = time_s.partition_point(|&t| t < tail_end);
     let partial = crate::regression::chunked_ranges(n - start, |a, b| {
         let (a, b) = (a + start, b + start);
         let mut sums = vec![0.0; nb];
@@ -450,21 +452,18 @@ pub(crate) fn plateau_check(
         let mut diff2 = vec![0.0; nb];
         let mut pairs = vec![0u32; nb];
         let mut k = edges.partition_point(|&e| e <= a).saturating_sub(1);
-        let mut prev: Option<f64> = None;
-        for m in a..b {
-            while m >= edges[k + 1] {
-                k += 1;
-                prev = None;
-            }
-            let root = tt(m).sqrt();
-            let y = faradaic(m) * root;
-            sums[k] += y;
-            roots[k] += root;
-            if let Some(p) = prev {
-                diff2[k] += (y - p) * (y - p);
-                pairs[k] += 1;
-            }
-            prev = Some(y);
+        let mut from = a;
+        while from < b {
+            // The part of bin k inside this thread's range; a neighbour pair across a bin
+            // edge or a thread's edge is not counted.
+            let to = edges[k + 1].min(b);
+            let s = bin_part(time_s, current_a, t0, from, to, tail_index, &faradaic);
+            sums[k] += s.0;
+            roots[k] += s.1;
+            diff2[k] += s.2;
+            pairs[k] += u32::try_from(to - from - 1).unwrap_or(u32::MAX);
+            from = to;
+            k += 1;
         }
         (sums, roots, diff2, pairs)
     });
@@ -567,6 +566,77 @@ pub(crate) fn plateau_check(
             if intercept { "S + b·√t" } else { "S" },
         ),
     }
+}
+
+/// Σ I·√t, Σ √t and Σ (ΔI·√t)² of neighbours over rows `from..to` of one bin, with
+/// √t = √(time − t0) and I = `faradaic(m)` before `tail_index`, the current itself after it.
+/// Rows go through a buffer a block at a time, so the square roots are computed packed, and
+/// the sums run in four interleaved lanes; this pass reads every point after the lower bound.
+fn bin_part(
+    time_s: &[f64],
+    current_a: &[f64],
+    t0: f64,
+    from: usize,
+    to: usize,
+    tail_index: usize,
+    faradaic: &dyn Fn(usize) -> f64,
+) -> (f64, f64, f64) {
+    const BLOCK: usize = 512;
+    const L: usize = 4;
+    let mut root = [0.0; BLOCK];
+    let mut value = [0.0; BLOCK];
+    let (mut sum, mut sum_root, mut diff2) = ([0.0; L], [0.0; L], [0.0; L]);
+    let mut prev = f64::NAN;
+    let mut a = from;
+    while a < to {
+        let e = (a + BLOCK).min(to);
+        let m = e - a;
+        let (root, value) = (&mut root[..m], &mut value[..m]);
+        for (r, &t) in root.iter_mut().zip(&time_s[a..e]) {
+            *r = (t - t0).sqrt();
+        }
+        for ((v, &r), &c) in value.iter_mut().zip(root.iter()).zip(&current_a[a..e]) {
+            *v = c * r;
+        }
+        for (j, v) in value
+            .iter_mut()
+            .enumerate()
+            .take(tail_index.saturating_sub(a))
+        {
+            *v = faradaic(a + j) * root[j];
+        }
+        // The first row's pair reaches back to the previous block (none for the bin's first).
+        if !prev.is_nan() {
+            diff2[0] += (value[0] - prev) * (value[0] - prev);
+        }
+        prev = value[m - 1];
+        let (vq, v_rest) = value.as_chunks::<L>();
+        let (rq, r_rest) = root.as_chunks::<L>();
+        for (vq, rq) in vq.iter().zip(rq) {
+            for l in 0..L {
+                sum[l] += vq[l];
+                sum_root[l] += rq[l];
+            }
+        }
+        for (l, (&v, &r)) in v_rest.iter().zip(r_rest).enumerate() {
+            sum[l] += v;
+            sum_root[l] += r;
+        }
+        let (dq, d_rest) = value[1..].as_chunks::<L>();
+        let (pq, p_rest) = value[..m - 1].as_chunks::<L>();
+        for (dq, pq) in dq.iter().zip(pq) {
+            for l in 0..L {
+                let d = dq[l] - pq[l];
+                diff2[l] += d * d;
+            }
+        }
+        for (l, (&v, &p)) in d_rest.iter().zip(p_rest).enumerate() {
+            diff2[l] += (v - p) * (v - p);
+        }
+        a = e;
+    }
+    let total = |x: [f64; L]| (x[0] + x[1]) + (x[2] + x[3]);
+    (total(sum), total(sum_root), total(diff2))
 }
 
 /// The plateau `c0 + c1·√t` fitted to the reference bins (`root` their mean √t), predicted at
@@ -690,6 +760,17 @@ pub(crate) fn range_switches(
             // Any residual jump inside [i, block_end) is at most |ΔI| plus the model's change.
             let slack = variation(i - 1, block_end - 1);
             let screen = limit - slack;
+            // Most blocks hold no current step above the screen at all; a branch-free look at
+            // the whole block says so at the speed of reading the current.
+            let (before, after) = (&current_a[i - 1..block_end - 1], &current_a[i..block_end]);
+            let any = before
+                .iter()
+                .zip(after)
+                .fold(false, |acc, (p, q)| acc | ((q - p).abs() > screen));
+            if screen > 0.0 && !any {
+                i = block_end;
+                continue;
+            }
             while i < block_end {
                 if screen > 0.0 && (current_a[i] - current_a[i - 1]).abs() <= screen {
                     i += 1;
