@@ -384,7 +384,8 @@ fn warnings_ui(ui: &mut egui::Ui, warnings: &[String]) {
     }
 }
 
-/// A small text field for a model entry, with its problem in red under it.
+/// A small text field for a model entry, with its problem in red under it; `true` when the
+/// user leaves it (Enter or a click elsewhere), which refits.
 fn entry_ui(
     ui: &mut egui::Ui,
     label: &str,
@@ -392,22 +393,22 @@ fn entry_ui(
     hint: &str,
     problem: Option<&String>,
 ) -> bool {
-    let mut done = false;
-    ui.horizontal(|ui| {
-        let l = ui.label(label);
-        let r = ui
-            .add(
+    let left = ui
+        .horizontal(|ui| {
+            let l = ui.label(label);
+            ui.add(
                 egui::TextEdit::singleline(text)
                     .desired_width(80.0)
                     .hint_text(hint),
             )
-            .labelled_by(l.id);
-        done = r.lost_focus();
-    });
+            .labelled_by(l.id)
+            .lost_focus()
+        })
+        .inner;
     if let Some(p) = problem {
         ui.colored_label(ui.visuals().error_fg_color, p);
     }
-    done
+    left
 }
 
 /// The model of the run: a choice among the engine's models (or its default for the

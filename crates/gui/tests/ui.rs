@@ -89,6 +89,22 @@ fn retype(h: &mut Harness<'_, DiffusorApp>, label: &str, text: &str) {
 const REP1: &[u8] = include_bytes!("../../../sample-data/planar-rep1.csv");
 const REP3: &[u8] = include_bytes!("../../../sample-data/planar-rep3.csv");
 
+/// The demo's first replicate read by the importer, its step and the demo cell: what the
+/// window fits, for calling the engine directly.
+fn rep1_for_the_engine() -> (
+    diffusor_trace::Trace,
+    diffusor_trace::Segment,
+    diffusor_fit::cell::Cell,
+) {
+    let trace =
+        diffusor_trace::import_bytes("planar-rep1.csv", REP1, &Default::default()).expect("import");
+    let step = trace.steps().next().expect("a step").clone();
+    let cell = diffusor_gui::cell_form::CellForm::demo()
+        .cell()
+        .expect("demo cell");
+    (trace, step, cell)
+}
+
 #[test]
 fn the_demo_is_fitted_on_first_start_and_shows_d() {
     let mut h = harness(DiffusorApp::demo());
@@ -102,12 +118,7 @@ fn the_demo_is_fitted_on_first_start_and_shows_d() {
 
     // The engine, called directly on the same bytes with the demo's cell and default options,
     // gives the number the window shows.
-    let trace =
-        diffusor_trace::import_bytes("planar-rep1.csv", REP1, &Default::default()).expect("import");
-    let step = trace.steps().next().expect("a step").clone();
-    let cell = diffusor_gui::cell_form::CellForm::demo()
-        .cell()
-        .expect("demo cell");
+    let (trace, step, cell) = rep1_for_the_engine();
     let direct = analyze(&trace, &step, &cell, &PlanarOptions::default()).expect("fit");
     let direct_d = direct.diffusion_m2_s.expect("D").value * 1e4;
     let rep1 = run_named(&h, "planar-rep1.csv (demo)");
@@ -643,12 +654,7 @@ fn a_run_takes_another_model_and_a_session_keeps_it() {
     // This model starts at the first sample after the step (it fits the charging decay).
     assert!(fit.result.window.points > planar.result.window.points);
     // The window shows what the engine gives for the same bytes, cell and model.
-    let trace =
-        diffusor_trace::import_bytes("planar-rep1.csv", REP1, &Default::default()).expect("import");
-    let step = trace.steps().next().expect("a step").clone();
-    let cell = diffusor_gui::cell_form::CellForm::demo()
-        .cell()
-        .expect("demo cell");
+    let (trace, step, cell) = rep1_for_the_engine();
     let direct = diffusor_fit::analysis::analyze_model(
         &trace,
         &step,
