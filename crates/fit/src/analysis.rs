@@ -529,7 +529,8 @@ fn window_for(
     // earlier than 50·Δt, where that is below 0.5 % (a convention of this program).
     // Nor is it valid for the charging model, which fits from the first sample where the
     // onset refinement (made after charging) does not look: measured on a synthetic transient,
-    // it moved t0 by a sample and the charging fit lost D entirely.
+    // it moved t0 by a sample and the charging fit lost D entirely. That model fits its own
+    // onset instead (`fit_cottrell_charging`).
     let t0 = if matches!(model, ModelKind::Anson | ModelKind::DoubleStep) {
         t0
     } else {
@@ -883,7 +884,11 @@ pub fn analyze_model(
                 fit.fit.diffusion_m2_s.map(|d| d.value),
                 &mut warnings,
             );
-            let common = make_common(choice, window, warnings);
+            // The model fits its own onset; the curve is evaluated from there.
+            let common = Common {
+                t0_s: t0 + fit.onset_s.value,
+                ..make_common(choice, window, warnings)
+            };
             from_model_fit(&fit.fit.clone(), common, ModelDetails::Charging(fit), curve)
         }
         ModelKind::Microdisk => {

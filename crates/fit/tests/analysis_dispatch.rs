@@ -157,9 +157,40 @@ fn cottrell_with_charging_from_the_first_sample() {
         &ModelInputs::default(),
     )
     .unwrap();
-    // The window starts at the first sample after the importer's onset.
-    assert_eq!(r.t0_s, 0.0);
+    // The window starts at the first sample after the importer's onset, which is the true
+    // step in this file: the fitted onset must find it to a small part of a sample.
+    assert!(r.t0_s.abs() < 0.05 * 2e-5, "t0 = {}", r.t0_s);
     assert_eq!(r.window.lo.time_s, trace.time_s[50]);
+    recovers("charging D", r.diffusion_m2_s, D_M2_S, 0.01);
+    let ModelDetails::Charging(c) = &r.details else {
+        panic!("{:?}", r.details)
+    };
+    recovers("charging τ", Some(c.time_constant_s), tau, 0.02);
+    let (ru_fit, _) = c.ru_ohm_and_cdl_f.expect("ΔE from the potential column");
+    recovers("charging Ru", Some(ru_fit), ru, 0.02);
+    curve_follows(&r, truth);
+}
+
+#[test]
+fn cottrell_with_charging_finds_an_onset_half_a_sample_early() {
+    // The same model when the potential stepped at the last rest sample, half a sample before
+    // the importer's onset (as in the planar demo files): the charging decay and the t^-½ term
+    // both start there. With the onset held at the importer's, D came out 29 % low on the demo
+    // trace; fitted, it must be back within 1 %, with τ and Ru within 2 %.
+    let (ru, tau, dt) = (150.0, 2e-4, 1e-4);
+    let truth = move |t: f64| {
+        let t = t + 0.5 * dt;
+        cottrell_current_a(1.0, AREA_M2, C, D_M2_S, t) + 0.5 / ru * (-t / tau).exp()
+    };
+    let trace = file(dt, 20_000, None, 2e-9, 5, truth);
+    let r = fit(
+        &trace,
+        &cell(Geometry::Planar),
+        Some(ModelKind::CottrellCharging),
+        &ModelInputs::default(),
+    )
+    .unwrap();
+    assert!((r.t0_s + 0.5 * dt).abs() < 0.05 * dt, "t0 = {}", r.t0_s);
     recovers("charging D", r.diffusion_m2_s, D_M2_S, 0.01);
     let ModelDetails::Charging(c) = &r.details else {
         panic!("{:?}", r.details)

@@ -411,7 +411,7 @@ fn inputs_section(input: &ReportInput<'_>) -> Markup {
                         }
                         @let planar_only = models_used(input.runs).iter().all(|m| *m == ModelKind::Cottrell.name());
                         @if !planar_only {
-                            dt { "these rules" } dd { "are the planar analysis's; the disk, sphere, kinetic and slab models take only its charging lower bound (no earlier than 50 sampling intervals) and run to the end of the data, at the importer's onset, and Cottrell plus charging starts at the first sample; each run's Window says what it used" }
+                            dt { "these rules" } dd { "are the planar analysis's; the disk, sphere, kinetic and slab models take only its charging lower bound (no earlier than 50 sampling intervals) and run to the end of the data, at the importer's onset, and Cottrell plus charging starts at the first sample and fits its own onset; each run's Window says what it used" }
                         }
                         dt { "window start" } dd { (bound_rule(o.window.lo, true, o)) }
                         dt { "window end" } dd { (bound_rule(o.window.hi, false, o)) }

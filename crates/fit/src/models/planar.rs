@@ -129,7 +129,9 @@ impl LeastSquaresProblem for CottrellCharging<'_> {
 /// [`CottrellCharging`] with a free onset, `I = S·(t − t0)^-½ + b + A·exp(−t/τ)`, parameters
 /// `[S, b, t0, ln A, ln τ]` (b dropped without an intercept). The charging decays from the
 /// nominal onset, where the potential stepped; the onset of the faradaic current is free
-/// because the two are confounded at short times (used to find the window's lower bound).
+/// because the two are confounded at short times (used to find the window's lower bound, and
+/// by the Cottrell-plus-charging model, where the amplitude at the fitted onset is
+/// `A·exp(−t0/τ)`).
 #[derive(Debug, Clone, Copy)]
 pub struct ShiftedCottrellCharging<'a> {
     /// Times after the nominal onset, in s.
