@@ -19,6 +19,12 @@ pub enum ImportError {
         /// The underlying error.
         error: std::io::Error,
     },
+    /// The import was stopped through its [`crate::Progress`].
+    #[error("reading was cancelled: {file}")]
+    Cancelled {
+        /// File name or label.
+        file: String,
+    },
     /// The file holds no bytes, or only whitespace.
     #[error("the file is empty: {file}")]
     Empty {

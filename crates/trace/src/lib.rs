@@ -32,6 +32,7 @@ mod error;
 mod fields;
 mod onset;
 mod parse;
+mod progress;
 mod sniff;
 mod units;
 
@@ -42,6 +43,7 @@ pub use columns::{ColumnInfo, Provenance};
 pub use error::{ImportError, ImportWarning, WarningKind};
 pub use fields::{DecimalMark, Delimiter};
 pub use onset::{Baseline, Onset, OnsetMethod, Polarity, Segment, SegmentKind};
+pub use progress::Progress;
 pub use sniff::{Dialect, LineEnding, MetadataLine, TextEncoding};
 pub use units::{Quantity, Unit, format_si};
 
@@ -107,6 +109,8 @@ pub struct ImportOptions {
     pub max_bad_fraction: f64,
     /// Threads for the bulk parse; 0 picks the number of cores.
     pub threads: usize,
+    /// Where the import reports how far it has got, and is told to stop.
+    pub progress: Option<std::sync::Arc<Progress>>,
 }
 
 impl Default for ImportOptions {
@@ -123,6 +127,7 @@ impl Default for ImportOptions {
             onset: OnsetChoice::Detect,
             max_bad_fraction: 0.01,
             threads: 0,
+            progress: None,
         }
     }
 }
@@ -374,7 +379,12 @@ fn import_from(
         wanted,
         threads,
         block: parse::BLOCK,
+        progress: options.progress.clone(),
     };
+    if let (Some(p), Some(total)) = (&options.progress, total_bytes) {
+        p.set_total(total);
+        p.add_parsed((start + sniffed.data_offset) as u64);
+    }
     let capacity = match remaining {
         Some(remaining) => {
             let lines = memchr::memchr_iter(spec.eol, data).count().max(1);

@@ -28,6 +28,8 @@ pub(crate) struct Spec {
     pub threads: usize,
     /// Bytes read per block ([`BLOCK`] but in tests).
     pub block: usize,
+    /// Counts the bytes of each block taken, and says when to stop.
+    pub progress: Option<std::sync::Arc<crate::Progress>>,
 }
 
 /// Why a row was not used.
@@ -621,6 +623,15 @@ fn work(feed: &Mutex<Feed<'_>>, sink: &(Mutex<Sink>, Condvar), output: &Output<'
         let Some((seq, end)) = taken else {
             return;
         };
+        if let Some(p) = &spec.progress {
+            p.add_parsed(buf.len() as u64);
+            if p.is_cancelled() {
+                let mut s = sink.0.lock().unwrap_or_else(PoisonError::into_inner);
+                s.failed = true;
+                sink.1.notify_all();
+                return;
+            }
+        }
         let mut parsed = {
             let mut s = sink.0.lock().unwrap_or_else(PoisonError::into_inner);
             s.free.pop()
@@ -710,6 +721,11 @@ pub(crate) fn parse_stream(
             .into_inner()
             .unwrap_or_else(PoisonError::into_inner)
     };
+    if spec.progress.as_ref().is_some_and(|p| p.is_cancelled()) {
+        return Err(ImportError::Cancelled {
+            file: file.to_owned(),
+        });
+    }
     let feed = feed.into_inner().unwrap_or_else(PoisonError::into_inner);
     let sink = sink.0.into_inner().unwrap_or_else(PoisonError::into_inner);
     let mut out = sink.out;
@@ -751,6 +767,7 @@ mod tests {
             wanted: vec![0, 1],
             threads,
             block: BLOCK,
+            progress: None,
         }
     }
 
