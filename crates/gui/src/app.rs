@@ -2,6 +2,7 @@
 //! that turns an edit into a refit.
 
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 
 use diffusor_fit::cell::Cell;
@@ -167,12 +168,12 @@ impl DiffusorApp {
             if let Some(run) = self.run_mut(id) {
                 run.selected = f.selected;
             }
-            self.queue.push(Job::Import {
+            self.queue_import(
                 id,
-                name: f.name.to_owned(),
-                source: Source::Bytes(f.bytes),
-                options: Box::default(),
-            });
+                f.name.to_owned(),
+                Source::Bytes(f.bytes),
+                Box::default(),
+            );
         }
     }
 
@@ -191,7 +192,7 @@ impl DiffusorApp {
             origin,
             colour,
             selected: true,
-            import: Import::Loading,
+            import: Import::Loading(Arc::default()),
             lo: Default::default(),
             hi: Default::default(),
             fit: FitState::default(),
@@ -213,12 +214,7 @@ impl DiffusorApp {
         let name = file_name(path);
         let id = self.add_run(name.clone(), Origin::File(path.to_path_buf()));
         self.focus = Some(id);
-        self.queue.push(Job::Import {
-            id,
-            name,
-            source: Source::Path(path.to_path_buf()),
-            options: Box::default(),
-        });
+        self.queue_import(id, name, Source::Path(path.to_path_buf()), Box::default());
     }
 
     fn open_dropped(&mut self, file: egui::DroppedFileHandle) {
@@ -230,12 +226,7 @@ impl DiffusorApp {
         };
         let id = self.add_run(name.clone(), Origin::Dropped(path));
         self.focus = Some(id);
-        self.queue.push(Job::Import {
-            id,
-            name,
-            source: Source::Dropped(file),
-            options: Box::default(),
-        });
+        self.queue_import(id, name, Source::Dropped(file), Box::default());
     }
 
     /// Every run, in the order of the list.
@@ -322,7 +313,7 @@ impl DiffusorApp {
             Outcome::Imported { id, result } => {
                 let Some(run) = self.run_mut(id) else { return };
                 // A cancelled import's answer comes too late to be wanted.
-                if !matches!(run.import, Import::Loading) {
+                if !matches!(run.import, Import::Loading(_)) {
                     return;
                 }
                 match result {
@@ -725,12 +716,12 @@ impl DiffusorApp {
                     let demo = crate::demo::FILES.iter().find(|f| f.name == name);
                     let id = self.add_run(format!("{name} (demo)"), Origin::Demo);
                     match demo {
-                        Some(f) => self.queue.push(Job::Import {
+                        Some(f) => self.queue_import(
                             id,
-                            name: f.name.to_owned(),
-                            source: Source::Bytes(f.bytes),
-                            options: Box::default(),
-                        }),
+                            f.name.to_owned(),
+                            Source::Bytes(f.bytes),
+                            Box::default(),
+                        ),
                         None => {
                             if let Some(run) = self.run_mut(id) {
                                 run.import = Import::Failed(format!(
@@ -758,12 +749,7 @@ impl DiffusorApp {
                         time: saved.time_column.clone(),
                         current: saved.current_column.clone(),
                     };
-                    self.queue.push(Job::Import {
-                        id,
-                        name,
-                        source: Source::Path(p),
-                        options: Box::new(columns.options()),
-                    });
+                    self.queue_import(id, name, Source::Path(p), Box::new(columns.options()));
                     if let Some(run) = self.run_mut(id) {
                         run.columns = columns;
                     }
@@ -817,6 +803,28 @@ impl DiffusorApp {
         &self.files
     }
 
+    /// Queues the reading of run `id`, with a fresh progress count the run shows and a
+    /// cancel can stop.
+    fn queue_import(
+        &mut self,
+        id: RunId,
+        name: String,
+        source: Source,
+        mut options: Box<diffusor_trace::ImportOptions>,
+    ) {
+        let progress = Arc::new(diffusor_trace::Progress::default());
+        if let Some(run) = self.run_mut(id) {
+            run.import = Import::Loading(Arc::clone(&progress));
+        }
+        options.progress = Some(progress);
+        self.queue.push(Job::Import {
+            id,
+            name,
+            source,
+            options,
+        });
+    }
+
     /// Reads run `id`'s file again with the columns named in its fields.
     pub fn read_again(&mut self, id: RunId) {
         let Some(run) = self.run_mut(id) else { return };
@@ -835,17 +843,11 @@ impl DiffusorApp {
             );
             return;
         };
-        run.import = Import::Loading;
         run.fit = crate::runs::FitState::default();
         run.selected = true;
         let options = Box::new(run.columns.options());
         let name = run.name.clone();
-        self.queue.push(Job::Import {
-            id,
-            name,
-            source,
-            options,
-        });
+        self.queue_import(id, name, source, options);
     }
 
     /// Stops the reading and fitting in progress: queued work is dropped, runs being read are
@@ -858,7 +860,9 @@ impl DiffusorApp {
         self.queue.clear();
         let mut stopped = 0;
         for run in &mut self.runs {
-            if matches!(run.import, Import::Loading) {
+            if let Import::Loading(p) = &run.import {
+                // The importer stops at its next block; its answer is ignored.
+                p.cancel();
                 run.import = Import::Failed(
                     "reading was cancelled: open the file again (Open files…, or type its path) to read it"
                         .to_owned(),
@@ -1121,7 +1125,7 @@ impl DiffusorApp {
                     let reading = self
                         .runs
                         .iter()
-                        .find(|r| matches!(r.import, Import::Loading))
+                        .find(|r| matches!(r.import, Import::Loading(_)))
                         .map(|r| r.name.as_str());
                     let what = match reading {
                         Some(name) => format!("reading {name}"),
@@ -1300,3 +1304,4 @@ impl eframe::App for DiffusorApp {
         eframe::set_value(storage, PREFS_KEY, &self.prefs);
     }
 }
+

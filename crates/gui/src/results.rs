@@ -150,10 +150,21 @@ impl ResultPanel {
             wrapped(ui, RichText::new(crate::demo::NOTE).small().weak());
         }
         match &run.import {
-            Import::Loading => {
+            Import::Loading(_) => {
                 ui.horizontal(|ui| {
                     ui.spinner();
-                    ui.label("reading the file…");
+                    match run.reading_progress() {
+                        Some((stage, done)) => {
+                            ui.add(
+                                egui::ProgressBar::new(done)
+                                    .desired_width(200.0)
+                                    .text(format!("{stage}: {:.0} %", 100.0 * done)),
+                            );
+                        }
+                        None => {
+                            ui.label("reading the file…");
+                        }
+                    }
                 });
                 return None;
             }

@@ -193,12 +193,27 @@ impl FitView {
 /// Where the import of a run stands.
 #[derive(Debug, Clone)]
 pub enum Import {
-    /// Being read.
-    Loading,
+    /// Being read; the importer counts its progress there and is told to stop through it.
+    Loading(Arc<diffusor_trace::Progress>),
     /// Read.
     Ready(Arc<RunData>),
     /// Could not be read; the message says why.
     Failed(String),
+}
+
+/// The stage of a reading and the fraction of it done: the file read into memory first
+/// (counted by the worker), then parsed (counted by the importer).
+pub fn reading_stage(p: &diffusor_trace::Progress) -> Option<(&'static str, f32)> {
+    let total = p.total();
+    if total == 0 {
+        return None;
+    }
+    let share = |done: u64| (done as f64 / total as f64).clamp(0.0, 1.0) as f32;
+    Some(if p.read() < total {
+        ("reading the file", share(p.read()))
+    } else {
+        ("parsing", share(p.parsed()))
+    })
 }
 
 /// One bound of the window as the user set it, with the text in its field.
@@ -338,6 +353,15 @@ pub struct Run {
 }
 
 impl Run {
+    /// How far the reading has got, in words, and the fraction of that stage done; `None`
+    /// when the run is not being read or the size of the file is not known yet.
+    pub fn reading_progress(&self) -> Option<(&'static str, f32)> {
+        match &self.import {
+            Import::Loading(p) => reading_stage(p),
+            _ => None,
+        }
+    }
+
     /// The run's data once imported.
     pub fn data(&self) -> Option<&Arc<RunData>> {
         match &self.import {
@@ -364,7 +388,7 @@ impl Run {
 
     /// Whether something is being computed for this run.
     pub fn busy(&self) -> bool {
-        matches!(self.import, Import::Loading) || self.fit.pending.is_some()
+        matches!(self.import, Import::Loading(_)) || self.fit.pending.is_some()
     }
 
     /// Whether this is a bundled demo file.
@@ -388,6 +412,18 @@ pub const PALETTE: [Color32; 7] = [
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_reading_stage_follows_the_counts() {
+        let p = diffusor_trace::Progress::default();
+        assert_eq!(reading_stage(&p), None, "size not known yet");
+        p.set_total(400);
+        assert_eq!(reading_stage(&p), Some(("reading the file", 0.0)));
+        p.add_read(100);
+        assert_eq!(reading_stage(&p), Some(("reading the file", 0.25)));
+        p.add_read(300);
+        assert_eq!(reading_stage(&p), Some(("parsing", 0.0)));
+    }
 
     #[test]
     fn a_bound_field_tells_edits_from_what_the_program_wrote() {

@@ -184,7 +184,18 @@ impl RunsPanel {
                     match kind {
                         StatusKind::Busy => {
                             ui.spinner();
-                            ui.weak(text);
+                            match run.reading_progress() {
+                                Some((stage, done)) => {
+                                    ui.add(
+                                        egui::ProgressBar::new(done)
+                                            .desired_width(120.0)
+                                            .text(format!("{stage} {:.0} %", 100.0 * done)),
+                                    );
+                                }
+                                None => {
+                                    ui.weak(text);
+                                }
+                            }
                         }
                         StatusKind::Error => {
                             // The advice is in the Result panel; the list keeps to the error.

@@ -10,7 +10,7 @@ use std::sync::mpsc::{Receiver, Sender, TryRecvError, channel};
 use diffusor_fit::analysis::{ModelInputs, ModelKind, analyze_model};
 use diffusor_fit::cell::Cell;
 use diffusor_fit::planar::PlanarOptions;
-use diffusor_trace::{ImportOptions, import_bytes};
+use diffusor_trace::{ImportOptions, Progress, import_bytes};
 use eframe::egui;
 use sha2::{Digest, Sha256};
 
@@ -124,8 +124,9 @@ impl Worker {
             .is_ok()
     }
 
-    /// Drops every job not yet started. The one running finishes (the importer and the fit
-    /// cannot be interrupted), and its outcome is for the caller to ignore.
+    /// Drops every job not yet started. A fit already running finishes (it cannot be
+    /// interrupted) and its outcome is for the caller to ignore; an import running stops at
+    /// its next block when the caller cancels its `Progress` too, as `App::cancel_work` does.
     pub fn cancel(&self) {
         self.epoch.fetch_add(1, Ordering::AcqRel);
     }
@@ -193,12 +194,39 @@ fn work(
     }
 }
 
-/// A file's bytes, labelled as the importer labels a path (its messages end with it).
-fn read_file(path: &std::path::Path) -> Result<(String, std::borrow::Cow<'static, [u8]>), String> {
+/// A file's bytes, labelled as the importer labels a path (its messages end with it), read in
+/// blocks of 4 MiB so that `progress` shows the reading and a cancel stops it between two.
+fn read_file(
+    path: &std::path::Path,
+    progress: Option<&Progress>,
+) -> Result<(String, std::borrow::Cow<'static, [u8]>), String> {
+    use std::io::Read;
+    const BLOCK: usize = 4 << 20;
     let label = path.display().to_string();
-    std::fs::read(path)
-        .map(|b| (label.clone(), std::borrow::Cow::Owned(b)))
-        .map_err(|e| format!("cannot read the file ({e}): {label}"))
+    let fail = |e: std::io::Error| format!("cannot read the file ({e}): {label}");
+    let mut file = std::fs::File::open(path).map_err(fail)?;
+    let size = file.metadata().map_err(fail)?.len();
+    if let Some(p) = progress {
+        p.set_total(size);
+    }
+    let mut bytes = Vec::with_capacity(usize::try_from(size).unwrap_or(0));
+    loop {
+        if progress.is_some_and(Progress::is_cancelled) {
+            return Err(format!("reading was cancelled: {label}"));
+        }
+        let before = bytes.len();
+        let got = (&mut file)
+            .take(BLOCK as u64)
+            .read_to_end(&mut bytes)
+            .map_err(fail)?;
+        if let Some(p) = progress {
+            p.add_read((bytes.len() - before) as u64);
+        }
+        if got == 0 {
+            break;
+        }
+    }
+    Ok((label, std::borrow::Cow::Owned(bytes)))
 }
 
 fn run_job(job: Job) -> Outcome {
@@ -211,13 +239,14 @@ fn run_job(job: Job) -> Outcome {
         } => {
             // The bytes are read here rather than by the importer so that their SHA-256 (which
             // a saved session compares) is of exactly what was fitted.
+            let progress = options.progress.as_deref();
             let read = match source {
                 Source::Bytes(bytes) => Ok((name.clone(), std::borrow::Cow::Borrowed(bytes))),
-                Source::Path(path) => read_file(&path),
+                Source::Path(path) => read_file(&path, progress),
                 Source::Dropped(handle) => {
                     let path = handle.path();
                     if path.is_file() {
-                        read_file(path)
+                        read_file(path, progress)
                     } else {
                         handle
                             .bytes()
@@ -226,6 +255,13 @@ fn run_job(job: Job) -> Outcome {
                     }
                 }
             };
+            // Bytes already in memory count as read.
+            if let (Some(p), Ok((_, bytes))) = (progress, &read)
+                && p.read() == 0
+            {
+                p.set_total(bytes.len() as u64);
+                p.add_read(bytes.len() as u64);
+            }
             let result = read.and_then(|(label, bytes)| {
                 let sha = format!("{:x}", Sha256::digest(&bytes));
                 import_bytes(&label, &bytes, &options)

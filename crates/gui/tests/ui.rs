@@ -9,7 +9,7 @@ use diffusor_fit::planar::{PlanarOptions, analyze};
 use diffusor_fit::replicates::{GrubbsOutcome, RunEstimate, summarize};
 use diffusor_gui::files_window::Notice;
 use diffusor_gui::format::{sci, sci_interval};
-use diffusor_gui::runs::Run;
+use diffusor_gui::runs::{Import, Run};
 use diffusor_gui::{DiffusorApp, Prefs, ThemeChoice, View};
 use eframe::egui::accesskit::Role;
 use eframe::egui::{self, Key, Modifiers};
@@ -801,9 +801,15 @@ fn cancelling_a_big_import_leaves_the_window_usable() {
     let mut h = harness(DiffusorApp::new(std::slice::from_ref(&big)));
     h.step();
     assert!(h.state().is_busy());
+    let Import::Loading(progress) = &run_named(&h, "big.csv").import else {
+        panic!("big.csv is not being read")
+    };
+    let progress = Arc::clone(progress);
     h.get_by_role_and_label(Role::Button, "Cancel").click();
     h.step();
     assert!(!h.state().is_busy(), "nothing is left running");
+    // The cancel reaches the worker's read and the importer, which stop at their next block.
+    assert!(progress.is_cancelled());
     let cancelled = run_named(&h, "big.csv").error().map(str::to_owned);
     assert!(
         cancelled
