@@ -1238,12 +1238,24 @@ fn file_name(path: &Path) -> String {
 /// A readable scale on a laptop screen: body text at 14 points, headings at 18.
 ///
 /// Hack (the monospace font egui bundles) backs up the proportional font for the signs it
-/// lacks: the superscript minus of 10⁻⁶, arrows, ▲.
-fn apply_style(ctx: &egui::Context) {
+/// lacks: the superscript minus of 10⁻⁶, arrows, ▲; DejaVu Sans (bundled in `assets/fonts`)
+/// backs up both for the mathematical signs of the models' equations and ranges (≫, ≤, θ…),
+/// which neither has and which would otherwise show as empty boxes.
+pub(crate) fn apply_style(ctx: &egui::Context) {
     use egui::{FontFamily, FontId, TextStyle};
     let mut fonts = egui::FontDefinitions::default();
+    fonts.font_data.insert(
+        "DejaVuSans".to_owned(),
+        Arc::new(egui::FontData::from_static(include_bytes!(
+            "../../../assets/fonts/DejaVuSans.ttf"
+        ))),
+    );
     if let Some(family) = fonts.families.get_mut(&FontFamily::Proportional) {
         family.push("Hack".to_owned());
+        family.push("DejaVuSans".to_owned());
+    }
+    if let Some(family) = fonts.families.get_mut(&FontFamily::Monospace) {
+        family.push("DejaVuSans".to_owned());
     }
     ctx.set_fonts(fonts);
     ctx.all_styles_mut(|style| {
@@ -1305,3 +1317,43 @@ impl eframe::App for DiffusorApp {
     }
 }
 
+#[cfg(test)]
+mod tests {
+    use eframe::egui::{self, FontFamily, FontId};
+
+    /// Every character beyond ASCII in the sources of the window and of the fitting engine
+    /// (whose equations, ranges and warnings the window shows) has a glyph in the fonts the
+    /// window installs: a missing one shows as an empty box, and in the interface tests as a
+    /// panic only when that very text happens to be on screen.
+    #[test]
+    fn every_sign_the_window_and_the_engine_write_has_a_glyph() {
+        fn walk(dir: &std::path::Path, out: &mut std::collections::BTreeSet<char>) {
+            for entry in std::fs::read_dir(dir).expect("source directory") {
+                let path = entry.expect("entry").path();
+                if path.is_dir() {
+                    walk(&path, out);
+                } else if path.extension().is_some_and(|e| e == "rs") {
+                    let text = std::fs::read_to_string(&path).expect("source");
+                    out.extend(text.chars().filter(|c| !c.is_ascii()));
+                }
+            }
+        }
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+        let mut signs = std::collections::BTreeSet::new();
+        walk(&root.join("src"), &mut signs);
+        walk(&root.join("../fit/src"), &mut signs);
+        assert!(signs.contains(&'≫') && signs.contains(&'τ'), "{signs:?}");
+        let ctx = egui::Context::default();
+        super::apply_style(&ctx);
+        // The font atlas of the one pass is not drawn anywhere; egui wants that said.
+        ctx.run_ui(egui::RawInput::default(), |_| {})
+            .textures_delta
+            .clear();
+        for family in [FontFamily::Proportional, FontFamily::Monospace] {
+            let font = FontId::new(14.0, family.clone());
+            let missing: String =
+                ctx.fonts_mut(|f| signs.iter().filter(|&&c| !f.has_glyph(&font, c)).collect());
+            assert!(missing.is_empty(), "{family:?} lacks {missing:?}");
+        }
+    }
+}
