@@ -37,7 +37,8 @@ enum Command {
     /// Open the desktop window with these files loaded (the bundled demo set when none are
     /// named).
     Gui {
-        /// Files to open.
+        /// Files to open: traces, or a session saved from the window (a `.json` file, which
+        /// replaces the runs).
         #[arg(value_name = "FILE")]
         files: Vec<PathBuf>,
     },

@@ -209,8 +209,15 @@ impl DiffusorApp {
         id
     }
 
-    /// Opens a file by its path (read and fitted in the background).
+    /// Opens a file by its path (read and fitted in the background). A `.json` file is taken
+    /// for a saved session and replaces the runs (a refused one leaves them as they were and
+    /// says why in the Save & export window), so `diffusor gui review.diffusor-session.json`
+    /// reopens what a colleague saw.
     pub fn open_path(&mut self, path: &Path) {
+        if is_session_name(path) {
+            self.open_session_reporting(path);
+            return;
+        }
         let name = file_name(path);
         let id = self.add_run(name.clone(), Origin::File(path.to_path_buf()));
         self.focus = Some(id);
@@ -219,6 +226,10 @@ impl DiffusorApp {
 
     fn open_dropped(&mut self, file: egui::DroppedFileHandle) {
         let path = file.path().to_path_buf();
+        if is_session_name(&path) && path.is_file() {
+            self.open_session_reporting(&path);
+            return;
+        }
         let name = if path.as_os_str().is_empty() {
             "dropped file".to_owned()
         } else {
@@ -1226,6 +1237,13 @@ impl DiffusorApp {
                 }
             });
     }
+}
+
+/// Whether a path names a session file rather than a trace: traces are text tables, and the
+/// program writes sessions as `.json`.
+fn is_session_name(path: &Path) -> bool {
+    path.extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("json"))
 }
 
 fn file_name(path: &Path) -> String {

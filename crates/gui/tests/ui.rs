@@ -699,6 +699,21 @@ fn a_run_takes_another_model_and_a_session_keeps_it() {
         again, fit.result.diffusion_m2_s,
         "the same numbers, bit for bit"
     );
+
+    // Named on the command line (`diffusor gui models.json`), the session opens the same way.
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&path)));
+    settle(&mut h);
+    let back = run_named(&h, name);
+    assert_eq!(back.model.kind, Some(ModelKind::CottrellCharging));
+    assert_eq!(
+        back.fit_view().expect("fit").result.diffusion_m2_s,
+        fit.result.diffusion_m2_s
+    );
+    assert_eq!(
+        h.state().runs().len(),
+        diffusor_gui::demo::FILES.len(),
+        "the session's runs, not a run named models.json"
+    );
 }
 
 #[test]
