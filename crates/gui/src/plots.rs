@@ -384,7 +384,8 @@ impl PlotsPanel {
         let sign_note = focused
             .and_then(|r| r.data())
             .is_some_and(|d| d.sign_reversed);
-        ui.horizontal(|ui| {
+        // Wrapped: the sign note must not widen the column past the plot beside it.
+        ui.horizontal_wrapped(|ui| {
             ui.strong("Transient").on_hover_text(
                 "Drag a window bound (a solid vertical line) to move it; the fit follows when you let go. Scroll to zoom, drag to pan, double-click to re-frame.",
             );

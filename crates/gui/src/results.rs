@@ -650,30 +650,28 @@ fn model_details_ui(ui: &mut egui::Ui, r: &ModelResult) {
         });
 }
 
+/// The parameters, one block each (the symbol and name, then the value ± standard error and
+/// the 95 % interval, wrapped), so long values never widen the Result panel over the plots.
 fn params_grid_ui(ui: &mut egui::Ui, id: &str, params: &[diffusor_fit::planar::Param]) {
-    egui::Grid::new(id)
-        .num_columns(3)
-        .striped(true)
-        .show(ui, |ui| {
-            ui.strong("");
-            ui.strong("value");
-            ui.strong("95 % interval");
-            ui.end_row();
-            for p in params {
-                ui.label(format!("{} ({})", p.symbol, p.name));
-                ui.label(format!(
-                    "{} ± {}",
+    ui.push_id(id, |ui| {
+        for p in params {
+            ui.add_space(2.0);
+            wrapped(
+                ui,
+                RichText::new(format!("{} — {}", p.symbol, p.name)).strong(),
+            );
+            wrapped(
+                ui,
+                format!(
+                    "{} ± {}; 95 % interval {} … {}",
                     in_trade_units(p.estimate.value, p.unit),
-                    in_trade_units(p.estimate.std_error, p.unit)
-                ));
-                ui.label(format!(
-                    "{} … {}",
+                    in_trade_units(p.estimate.std_error, p.unit),
                     in_trade_units(p.estimate.ci95[0], p.unit),
                     in_trade_units(p.estimate.ci95[1], p.unit)
-                ));
-                ui.end_row();
-            }
-        });
+                ),
+            );
+        }
+    });
 }
 
 fn details_ui(ui: &mut egui::Ui, r: &PlanarResult) {

@@ -969,3 +969,53 @@ fn the_results_json_is_the_fit_document_with_the_numbers_shown() {
     // The replicate comparison of the report comes with it.
     assert!(doc["replicates"].is_object());
 }
+
+#[test]
+fn a_disk_fit_keeps_the_result_panel_beside_the_plots() {
+    // The disk model's parameters once made the Result panel grow to its widest, and the plots
+    // then ran over it. A session of the microdisk demo file, opened from the command line.
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    std::fs::write(
+        dir.path().join("disk.csv"),
+        include_bytes!("../../../sample-data/microdisk-r5um.csv"),
+    )
+    .expect("written");
+    let q = |v: &str, u: &str| {
+        format!(
+            r#"{{"value": "{v}", "unit": "{u}", "uncertainty": "1", "uncertainty_mode": "percent"}}"#
+        )
+    };
+    let session = format!(
+        r#"{{"schema": "diffusor.session/1", "program_version": "0", "focus": 0,
+  "cell": {{"n": "1", "geometry": "microdisk", "size_kind": "radius", "area": {},
+    "length": {}, "conc": {}, "inverse": false, "known_d": {}, "temperature": "25",
+    "temperature_unit": "°C"}},
+  "choices": {{"intercept": true, "refine_onset": true}},
+  "runs": [{{"source": {{"kind": "file", "path": "disk.csv"}}, "sha256": null,
+    "selected": true, "window_lo_s": null, "window_hi_s": null, "model": "microdisk"}}]}}"#,
+        q("", "cm²"),
+        q("5.00", "µm"),
+        q("1.000", "mM"),
+        q("", "cm²/s"),
+    );
+    let path = dir.path().join("disk.json");
+    std::fs::write(&path, session).expect("written");
+    let mut h = harness(DiffusorApp::new(std::slice::from_ref(&path)));
+    settle(&mut h);
+    let run = run_named(&h, "disk.csv");
+    assert!(
+        run.fit_view()
+            .is_some_and(|f| f.result.model == diffusor_fit::analysis::ModelKind::Microdisk),
+        "{:?}",
+        run.error()
+    );
+    h.get_by_label_contains("Parameters");
+    let result = h.get_by_label("Result").rect();
+    let cottrell = h.get_by_label("Cottrell plot").rect();
+    assert!(
+        result.min.x > cottrell.max.x,
+        "the Result panel at {result:?}, the Cottrell plot's title at {cottrell:?}"
+    );
+    // The panel keeps about its default width (330 points), far from its 520-point limit.
+    assert!(1280.0 - result.min.x < 400.0, "{result:?}");
+}
