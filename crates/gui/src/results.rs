@@ -34,7 +34,7 @@ pub enum ResultAction {
 pub struct ResultPanel {}
 
 /// The caution shown with every result.
-pub const CAUTION: &str = "D follows from the area, concentration and n you entered: check them. Validate the method against a standard of known D before using results for decisions, and follow your local safety rules and the reagents' safety data sheets.";
+pub const CAUTION: &str = "D follows from the electrode size, concentration and n you entered (or, for the models that fit C, from the size and n): check them. Validate the method against a standard of known D before using results for decisions, and follow your local safety rules and the reagents' safety data sheets.";
 
 /// A value in an SI unit of the engine, shown in the unit of the trade.
 pub fn in_trade_units(value: f64, unit: &str) -> String {
