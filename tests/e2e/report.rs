@@ -405,3 +405,23 @@ fn in_a_browser_the_report_fetches_nothing_runs_nothing_and_renders() {
     let pages = pdf_pages(&std::fs::read(&pdf).expect("pdf written"));
     assert!(pages >= 4, "{pages} pages");
 }
+
+#[test]
+fn a_charging_fit_reports_its_own_onset_and_units() {
+    // Cottrell plus charging fits its onset; the page must say so (not "the importer's") and
+    // give Ru and Cdl with their units.
+    let dir = tempfile::tempdir().expect("temp dir");
+    let out = dir.path().join("charging.html");
+    let path = out.to_str().expect("utf-8 path");
+    let mut args = vec!["report", "--model", "cottrell-charging"];
+    args.extend(cell_args());
+    args.extend(["-o", path, REPLICATES[0]]);
+    let run = diffusor(&args);
+    assert_eq!(run.status.code(), Some(0), "{}", stderr(&run));
+    let html = std::fs::read_to_string(&out).expect("written");
+    assert!(html.contains("fitted with the model: t0 = −"), "onset row");
+    assert!(!html.contains("t0 is refined only by"), "the old onset row");
+    for unit in [" Ω ± ", " µF ± "] {
+        assert!(html.contains(unit), "{unit}");
+    }
+}

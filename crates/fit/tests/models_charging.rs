@@ -96,3 +96,45 @@ fn a_transient_without_charging_is_refused() {
     .unwrap_err();
     assert!(matches!(err, ModelError::NotIdentifiable(_)), "{err:?}");
 }
+
+#[test]
+fn a_charging_decay_barely_in_the_data_is_flagged() {
+    // The same cell sampled from 9 τ after the step on: the charging current is down to
+    // e^-9 = 1.2e-4 of ΔE/Ru at the first point, 0.6 µA on a 50 nA noise, and fades within
+    // a few samples. The fit must say that τ and ΔE/Ru are not determined (this program's
+    // convention: 10 % each) rather than present them as results.
+    let mut rng = StdRng::seed_from_u64(7);
+    let noise = Normal::new(0.0, 5e-8).expect("normal");
+    let tau = RU_OHM * CDL_F;
+    let t: Vec<f64> = (0..2000).map(|k| 9.0 * tau + 2e-5 * k as f64).collect();
+    let i: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            cottrell_current_a(1.0, AREA_M2, C, D_M2_S, t)
+                + STEP_V / RU_OHM * (-t / tau).exp()
+                + noise.sample(&mut rng)
+        })
+        .collect();
+    let fit = fit_cottrell_charging(
+        &Transient {
+            time_s: &t,
+            current_a: &i,
+        },
+        Some((1.0, AREA_M2, C)),
+        Some(STEP_V),
+    )
+    .unwrap();
+    println!(
+        "τ = {:?}, amplitude = {:?}; {}",
+        fit.time_constant_s, fit.charging_amplitude_a, fit.fit.validity_check
+    );
+    assert!(!fit.fit.in_validity_range, "{}", fit.fit.validity_check);
+    assert!(
+        fit.fit
+            .warnings
+            .iter()
+            .any(|w| w.message.contains("barely in the data")),
+        "{:?}",
+        fit.fit.warnings
+    );
+}

@@ -78,6 +78,9 @@ pub(crate) fn display_of(si_unit: &str) -> Display {
         "s" => Display::Engineering("s"),
         "m" => Display::Engineering("m"),
         "A·s^½" => Display::Engineering("A·s^½"),
+        "Ω" => Display::Engineering("Ω"),
+        "F" => Display::Engineering("F"),
+        "C" => Display::Engineering("C"),
         _ => Display::Scaled(1.0, ""),
     }
 }

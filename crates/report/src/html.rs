@@ -1033,7 +1033,7 @@ fn model_section(
                 dt { "to" } dd { (si(m.window.hi.time_s, "s", 4)) ": " (m.window.hi.description) }
                 dt { "points" } dd { (m.points) }
                 dt { "background" } dd { (m.background) }
-                dt { "onset" } dd { "the importer's (t0 is refined only by the Cottrell analysis)" }
+                dt { "onset" } dd { (model_onset(m)) }
             }
             h3 { "Model" }
             dl.rules {
@@ -1102,5 +1102,21 @@ fn identity(run: &RunInput<'_>) -> Markup {
             dt { "file" } dd.file { (run.label) }
             dt { "SHA-256" } dd { code { (run.sha256.unwrap_or("not available")) } }
         }
+    }
+}
+
+/// Where a model's times start: its own fitted onset (Cottrell plus charging), the Cottrell
+/// analysis's refined one (Anson, double step), or the importer's (the others).
+fn model_onset(m: &ModelResult) -> String {
+    match m.model {
+        ModelKind::CottrellCharging => format!(
+            "fitted with the model: t0 = {} from the importer's onset",
+            si(m.t0_s, "s", 4)
+        ),
+        _ if m.t0_s != 0.0 => format!(
+            "refined by the Cottrell analysis: t0 = {} from the importer's onset",
+            si(m.t0_s, "s", 4)
+        ),
+        _ => "the importer's (the disk, sphere, kinetic and slab models keep it, and their window starts late enough for half a sample not to matter)".to_owned(),
     }
 }

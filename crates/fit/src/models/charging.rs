@@ -174,14 +174,23 @@ pub fn fit_cottrell_charging(
         None => None,
     };
     let mut warnings = solved.residual_warnings();
+    // The model holds when the charging decay is in the data well enough to determine it: τ
+    // and the amplitude each to 10 % (a convention of this program). How many time constants
+    // after the onset the first point lies is shown beside it.
     let since_onset = t_first - t0;
-    let resolved = since_onset < 3.0 * tau.value;
+    let (rel_tau, rel_amp) = (
+        tau.std_error / tau.value,
+        amplitude.std_error / amplitude.value,
+    );
+    let resolved = rel_tau < 0.1 && rel_amp < 0.1;
     if !resolved {
         warnings.push(warning(
             ModelWarningCode::PoorlyDetermined,
             format!(
-                "the first point is {:.1} time constants after the step: the charging decay is barely in the data and its amplitude and τ are poorly determined",
-                since_onset / tau.value
+                "the first point is {:.1} time constants after the fitted onset: the charging decay is barely in the data, and τ and ΔE/Ru are determined only to {:.0} % and {:.0} %",
+                since_onset / tau.value,
+                100.0 * rel_tau,
+                100.0 * rel_amp
             ),
         ));
     }
@@ -192,8 +201,10 @@ pub fn fit_cottrell_charging(
         validity: VALIDITY,
         in_validity_range: resolved,
         validity_check: format!(
-            "τ = Ru·Cdl = {:.3e} s; the data start {:.3e} s after the fitted onset ({:.2} τ)",
+            "τ = Ru·Cdl = {:.3e} s ± {:.1} % and ΔE/Ru ± {:.1} % (each must be within 10 %); the data start {:.3e} s after the fitted onset ({:.2} τ)",
             tau.value,
+            100.0 * rel_tau,
+            100.0 * rel_amp,
             since_onset,
             since_onset / tau.value
         ),
