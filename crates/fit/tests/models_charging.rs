@@ -19,15 +19,20 @@ const RU_OHM: f64 = 100.0;
 const CDL_F: f64 = 1.414e-6;
 
 fn transient(seed: u64) -> (Vec<f64>, Vec<f64>) {
+    transient_from(seed, 2e-5, 2e-8)
+}
+
+/// 2000 samples 20 µs apart from `t_first` on, with a background `b` and 50 nA of noise.
+fn transient_from(seed: u64, t_first: f64, b: f64) -> (Vec<f64>, Vec<f64>) {
     let mut rng = StdRng::seed_from_u64(seed);
     let noise = Normal::new(0.0, 5e-8).expect("normal");
     let tau = RU_OHM * CDL_F;
-    let t: Vec<f64> = (1..=2000).map(|k| 2e-5 * k as f64).collect();
+    let t: Vec<f64> = (0..2000).map(|k| t_first + 2e-5 * k as f64).collect();
     let i = t
         .iter()
         .map(|&t| {
             cottrell_current_a(1.0, AREA_M2, C, D_M2_S, t)
-                + 2e-8
+                + b
                 + STEP_V / RU_OHM * (-t / tau).exp()
                 + noise.sample(&mut rng)
         })
@@ -103,18 +108,7 @@ fn a_charging_decay_barely_in_the_data_is_flagged() {
     // e^-9 = 1.2e-4 of ΔE/Ru at the first point, 0.6 µA on a 50 nA noise, and fades within
     // a few samples. The fit must say that τ and ΔE/Ru are not determined (this program's
     // convention: 10 % each) rather than present them as results.
-    let mut rng = StdRng::seed_from_u64(7);
-    let noise = Normal::new(0.0, 5e-8).expect("normal");
-    let tau = RU_OHM * CDL_F;
-    let t: Vec<f64> = (0..2000).map(|k| 9.0 * tau + 2e-5 * k as f64).collect();
-    let i: Vec<f64> = t
-        .iter()
-        .map(|&t| {
-            cottrell_current_a(1.0, AREA_M2, C, D_M2_S, t)
-                + STEP_V / RU_OHM * (-t / tau).exp()
-                + noise.sample(&mut rng)
-        })
-        .collect();
+    let (t, i) = transient_from(7, 9.0 * RU_OHM * CDL_F, 0.0);
     let fit = fit_cottrell_charging(
         &Transient {
             time_s: &t,

@@ -153,18 +153,7 @@ impl ResultPanel {
             Import::Loading(_) => {
                 ui.horizontal(|ui| {
                     ui.spinner();
-                    match run.reading_progress() {
-                        Some((stage, done)) => {
-                            ui.add(
-                                egui::ProgressBar::new(done)
-                                    .desired_width(200.0)
-                                    .text(format!("{stage}: {:.0} %", 100.0 * done)),
-                            );
-                        }
-                        None => {
-                            ui.label("reading the file…");
-                        }
-                    }
+                    crate::runs_panel::reading_bar(ui, run, 200.0, "reading the file…");
                 });
                 return None;
             }

@@ -28,6 +28,23 @@ pub struct RunsPanel {
     pub path_text: String,
 }
 
+/// The stage of a run's reading as a bar `width` points wide, or `otherwise` (weak) while the
+/// size of the file is not known.
+pub fn reading_bar(ui: &mut egui::Ui, run: &Run, width: f32, otherwise: &str) {
+    match run.reading_progress() {
+        Some((stage, done)) => {
+            ui.add(
+                egui::ProgressBar::new(done)
+                    .desired_width(width)
+                    .text(format!("{stage} {:.0} %", 100.0 * done)),
+            );
+        }
+        None => {
+            ui.weak(otherwise);
+        }
+    }
+}
+
 /// One line on a run's state: its result, or what is happening, or what went wrong.
 pub fn status_text(run: &Run) -> (String, StatusKind) {
     if let Some(e) = run.error() {
@@ -184,18 +201,7 @@ impl RunsPanel {
                     match kind {
                         StatusKind::Busy => {
                             ui.spinner();
-                            match run.reading_progress() {
-                                Some((stage, done)) => {
-                                    ui.add(
-                                        egui::ProgressBar::new(done)
-                                            .desired_width(120.0)
-                                            .text(format!("{stage} {:.0} %", 100.0 * done)),
-                                    );
-                                }
-                                None => {
-                                    ui.weak(text);
-                                }
-                            }
+                            reading_bar(ui, run, 120.0, &text);
                         }
                         StatusKind::Error => {
                             // The advice is in the Result panel; the list keeps to the error.
