@@ -211,8 +211,12 @@ pub fn reading_stage(p: &diffusor_trace::Progress) -> Option<(&'static str, f32)
     let share = |done: u64| (done as f64 / total as f64).clamp(0.0, 1.0) as f32;
     Some(if p.read() < total {
         ("reading the file", share(p.read()))
-    } else {
+    } else if p.parsed() < total {
         ("parsing", share(p.parsed()))
+    } else {
+        // The importer's checks (time order, onset, segments) and the plots' precomputed
+        // extremes come after the last block.
+        ("checking the trace", 1.0)
     })
 }
 
@@ -423,6 +427,8 @@ mod tests {
         assert_eq!(reading_stage(&p), Some(("reading the file", 0.25)));
         p.add_read(300);
         assert_eq!(reading_stage(&p), Some(("parsing", 0.0)));
+        p.add_parsed(400);
+        assert_eq!(reading_stage(&p), Some(("checking the trace", 1.0)));
     }
 
     #[test]

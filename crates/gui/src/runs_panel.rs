@@ -201,7 +201,7 @@ impl RunsPanel {
                     match kind {
                         StatusKind::Busy => {
                             ui.spinner();
-                            reading_bar(ui, run, 120.0, &text);
+                            reading_bar(ui, run, 180.0, &text);
                         }
                         StatusKind::Error => {
                             // The advice is in the Result panel; the list keeps to the error.

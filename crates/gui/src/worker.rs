@@ -194,12 +194,14 @@ fn work(
     }
 }
 
+/// Bytes read for an import: the label for messages, the bytes, and their SHA-256 when it was
+/// computed on the way in.
+type Read = (String, std::borrow::Cow<'static, [u8]>, Option<String>);
+
 /// A file's bytes, labelled as the importer labels a path (its messages end with it), read in
-/// blocks of 4 MiB so that `progress` shows the reading and a cancel stops it between two.
-fn read_file(
-    path: &std::path::Path,
-    progress: Option<&Progress>,
-) -> Result<(String, std::borrow::Cow<'static, [u8]>), String> {
+/// blocks of 4 MiB and hashed as they come, so that `progress` shows the reading (hashing a
+/// large file takes as long as reading it) and a cancel stops it between two blocks.
+fn read_file(path: &std::path::Path, progress: Option<&Progress>) -> Result<Read, String> {
     use std::io::Read;
     const BLOCK: usize = 4 << 20;
     let label = path.display().to_string();
@@ -210,6 +212,7 @@ fn read_file(
         p.set_total(size);
     }
     let mut bytes = Vec::with_capacity(usize::try_from(size).unwrap_or(0));
+    let mut hasher = Sha256::new();
     loop {
         if progress.is_some_and(Progress::is_cancelled) {
             return Err(format!("reading was cancelled: {label}"));
@@ -219,6 +222,7 @@ fn read_file(
             .take(BLOCK as u64)
             .read_to_end(&mut bytes)
             .map_err(fail)?;
+        hasher.update(&bytes[before..]);
         if let Some(p) = progress {
             p.add_read((bytes.len() - before) as u64);
         }
@@ -226,7 +230,8 @@ fn read_file(
             break;
         }
     }
-    Ok((label, std::borrow::Cow::Owned(bytes)))
+    let sha = format!("{:x}", hasher.finalize());
+    Ok((label, std::borrow::Cow::Owned(bytes), Some(sha)))
 }
 
 fn run_job(job: Job) -> Outcome {
@@ -241,7 +246,7 @@ fn run_job(job: Job) -> Outcome {
             // a saved session compares) is of exactly what was fitted.
             let progress = options.progress.as_deref();
             let read = match source {
-                Source::Bytes(bytes) => Ok((name.clone(), std::borrow::Cow::Borrowed(bytes))),
+                Source::Bytes(bytes) => Ok((name.clone(), std::borrow::Cow::Borrowed(bytes), None)),
                 Source::Path(path) => read_file(&path, progress),
                 Source::Dropped(handle) => {
                     let path = handle.path();
@@ -250,20 +255,20 @@ fn run_job(job: Job) -> Outcome {
                     } else {
                         handle
                             .bytes()
-                            .map(|b| (name.clone(), std::borrow::Cow::Owned(b)))
+                            .map(|b| (name.clone(), std::borrow::Cow::Owned(b), None))
                             .map_err(|e| format!("cannot read the dropped file ({e}): {name}"))
                     }
                 }
             };
             // Bytes already in memory count as read.
-            if let (Some(p), Ok((_, bytes))) = (progress, &read)
+            if let (Some(p), Ok((_, bytes, _))) = (progress, &read)
                 && p.read() == 0
             {
                 p.set_total(bytes.len() as u64);
                 p.add_read(bytes.len() as u64);
             }
-            let result = read.and_then(|(label, bytes)| {
-                let sha = format!("{:x}", Sha256::digest(&bytes));
+            let result = read.and_then(|(label, bytes, sha)| {
+                let sha = sha.unwrap_or_else(|| format!("{:x}", Sha256::digest(&bytes)));
                 import_bytes(&label, &bytes, &options)
                     .map_err(|e| crate::messages::import_error(&e))
                     .and_then(RunData::new)

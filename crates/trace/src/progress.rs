@@ -28,8 +28,8 @@ impl Progress {
         self.read.fetch_add(bytes, Ordering::Relaxed);
     }
 
-    /// Counts `bytes` more parsed by the importer.
-    pub(crate) fn add_parsed(&self, bytes: u64) {
+    /// Counts `bytes` more parsed (the importer calls it for every block it takes).
+    pub fn add_parsed(&self, bytes: u64) {
         self.parsed.fetch_add(bytes, Ordering::Relaxed);
     }
 
