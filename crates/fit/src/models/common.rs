@@ -448,6 +448,145 @@ pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitE
     })
 }
 
+/// [`linear_fit`] for a design given row by row, whose first column is the constant 1: the
+/// same estimates, plain and sandwich covariances, noise model and condition number, in a few
+/// streaming passes instead of a Householder QR of a stored m × p matrix (which cost more than
+/// the whole disk fit on 10⁵ points). The slopes come from the normal equations of the
+/// columns centred on their exact means, which for the short, well-conditioned designs of the
+/// cross-checks (two or three columns) keep the digits a QR would.
+pub(crate) fn linear_fit_rows<const P: usize>(
+    y: &[f64],
+    row: impl Fn(usize) -> [f64; P],
+) -> Result<Solved, FitError> {
+    let m = y.len();
+    if m <= P {
+        return Err(FitError::TooFewPoints {
+            points: m,
+            parameters: P,
+        });
+    }
+    let rank = || FitError::RankDeficient {
+        column: 0,
+        rank: 0,
+        parameters: P,
+        condition_number: f64::INFINITY,
+    };
+    // Means of the columns and of y.
+    let mut mean = [0.0; P];
+    let mut mean_y = 0.0;
+    for (i, &yi) in y.iter().enumerate() {
+        let x = row(i);
+        for j in 1..P {
+            mean[j] += x[j];
+        }
+        mean_y += yi;
+    }
+    for v in &mut mean {
+        *v /= m as f64;
+    }
+    mean[0] = 1.0;
+    mean_y /= m as f64;
+    // Centred cross products, and the raw XᵀX for the covariances.
+    let mut cxx = [[0.0; P]; P];
+    let mut cxy = [0.0; P];
+    let mut raw = [[0.0; P]; P];
+    for (i, &yi) in y.iter().enumerate() {
+        let x = row(i);
+        let dy = yi - mean_y;
+        for a in 1..P {
+            let da = x[a] - mean[a];
+            cxy[a] += da * dy;
+            for b in 1..P {
+                cxx[a][b] += da * (x[b] - mean[b]);
+            }
+        }
+        for a in 0..P {
+            for b in 0..P {
+                raw[a][b] += x[a] * x[b];
+            }
+        }
+    }
+    let q = P - 1;
+    let centred = DMatrix::from_fn(q, q, |a, b| cxx[a + 1][b + 1]);
+    let rhs = DVector::from_fn(q, |a, _| cxy[a + 1]);
+    let slopes = centred.cholesky().ok_or_else(rank)?.solve(&rhs);
+    let mut beta = [0.0; P];
+    beta[0] = mean_y;
+    for j in 1..P {
+        beta[j] = slopes[j - 1];
+        beta[0] -= slopes[j - 1] * mean[j];
+    }
+    let residuals: Vec<f64> = y
+        .iter()
+        .enumerate()
+        .map(|(i, &yi)| {
+            let x = row(i);
+            yi - (0..P).map(|j| beta[j] * x[j]).sum::<f64>()
+        })
+        .collect();
+    let rss: f64 = residuals.iter().map(|r| r * r).sum();
+    let dof = m - P;
+    let s2 = rss / dof as f64;
+    let normal = DMatrix::from_fn(P, P, |a, b| raw[a][b]);
+    // The 2-norm condition number of the column-equilibrated design, from the eigenvalues of
+    // its normal matrix scaled to unit diagonal (as `linear_fit`).
+    let scale = DVector::from_fn(P, |j, _| 1.0 / normal[(j, j)].sqrt());
+    let scaled = DMatrix::from_fn(P, P, |i, j| normal[(i, j)] * scale[i] * scale[j]);
+    let eig = scaled.symmetric_eigen().eigenvalues;
+    let condition_number = (eig.max() / eig.min()).sqrt();
+    let inv = normal.clone().try_inverse().ok_or_else(rank)?;
+    let plain = &inv * s2;
+    let noise = NoiseModel::from_autocorrelation(&autocorrelation(&residuals), m);
+    // The sandwich of `regression::sandwich_covariance` with the rows made on the fly (the
+    // Jacobian is −X; the sign cancels in every product).
+    let mut middle = &normal * (1.0 - noise.c);
+    if noise.c > 0.0 && noise.phi > 0.0 {
+        let phi = noise.phi;
+        let mut h = [0.0; P];
+        let mut prev = [0.0; P];
+        let mut acc = [[0.0; P]; P];
+        for i in 0..m {
+            let z = row(i);
+            if i > 0 {
+                for c in 0..P {
+                    h[c] = phi * (h[c] + prev[c]);
+                }
+            }
+            for r in 0..P {
+                for c in 0..P {
+                    acc[r][c] += z[r] * z[c] + z[r] * h[c] + h[r] * z[c];
+                }
+            }
+            prev = z;
+        }
+        middle += DMatrix::from_fn(P, P, |a, b| acc[a][b]) * noise.c;
+    }
+    let covariance = &inv * middle * &inv * s2;
+    let fit = NonlinearFit {
+        parameters: beta.to_vec(),
+        standard_errors: (0..P).map(|j| plain[(j, j)].max(0.0).sqrt()).collect(),
+        covariance: (0..P)
+            .map(|i| (0..P).map(|j| plain[(i, j)]).collect())
+            .collect(),
+        residual_sum_of_squares: rss,
+        residual_standard_deviation: s2.sqrt(),
+        degrees_of_freedom: dof,
+        observations: m,
+        iterations: 0,
+        residual_evaluations: 1,
+        jacobian_evaluations: 1,
+        // At the least-squares solution the residuals are orthogonal to the columns.
+        termination: Termination::Gtol,
+        condition_number,
+    };
+    Ok(Solved {
+        fit,
+        covariance,
+        noise,
+        dof: (noise.effective_points(m) - P as f64).max(1.0),
+    })
+}
+
 /// Checks that `value` is positive and finite.
 pub(crate) fn positive(what: &'static str, value: f64) -> Result<f64, ModelError> {
     if value > 0.0 && value.is_finite() {

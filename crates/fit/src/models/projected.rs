@@ -1,0 +1,437 @@
+//! A model `I = K·g(D, t)` whose scale `K = n·C` enters linearly, fitted by variable
+//! projection: for each `D` the best `K` is closed form, so the solver searches `D` alone and
+//! `K` with the full 2 × 2 covariance follows at the solution.
+//!
+//! Variable projection: G. H. Golub & V. Pereyra, "The differentiation of pseudo-inverses and
+//! nonlinear least squares problems whose variables separate", SIAM J. Numer. Anal. 10 (1973)
+//! 413. With one linear parameter the projected residual is `r(D) = y − K(D)·g(D)`,
+//! `K(D) = Σg·y/Σg²`, and its exact derivative is `−(K·g′ + K′·g)` with
+//! `K′ = (Σg′·y − 2K·Σg·g′)/Σg²`; every quantity the solver needs is a handful of sums over
+//! the points, made in one pass per trial `D`.
+
+use std::cell::{Cell, RefCell};
+
+use nalgebra::{DMatrix, DVector};
+
+use crate::FitError;
+use crate::models::common::{Solved, autocorrelation};
+use crate::regression::NoiseModel;
+use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, minimise};
+
+/// Below this many points a pass runs on one thread (a thread costs more than it saves).
+const PARALLEL_MIN: usize = 40_000;
+
+/// Points of the strided sample the start grid runs on.
+const START_POINTS: usize = 500;
+
+/// The sums of one pass at a given `D`: `Σ(y − K₀g)²` for the reference scale `K₀`, `Σg²`,
+/// `Σg·y`, `Σg′·y`, `Σg·g′` and `Σg′²`.
+#[derive(Debug, Clone, Copy, Default)]
+struct Sums {
+    rss_ref: f64,
+    gg: f64,
+    gy: f64,
+    dy: f64,
+    gd: f64,
+    dd: f64,
+}
+
+impl Sums {
+    fn add(self, o: Sums) -> Sums {
+        Sums {
+            rss_ref: self.rss_ref + o.rss_ref,
+            gg: self.gg + o.gg,
+            gy: self.gy + o.gy,
+            dy: self.dy + o.dy,
+            gd: self.gd + o.gd,
+            dd: self.dd + o.dd,
+        }
+    }
+}
+
+/// The projected problem at one `D`.
+#[derive(Debug, Clone, Copy)]
+struct Projected {
+    /// The residual sum of squares at `(D, K(D))`.
+    rss: f64,
+    /// `JᵀJ` and `Jᵀr` of the projected residual (one column, `∂r/∂D`).
+    jtj: f64,
+    jtr: f64,
+}
+
+/// `I = K·g(D, xᵢ)` on per-point abscissae `xᵢ` chosen by the model (so that what does not
+/// depend on `D`, such as `t^-½`, is computed once); `shape(D, x)` returns `(g, ∂g/∂D)`.
+///
+/// To argmin's Levenberg–Marquardt solver the projected problem is presented compressed: at
+/// each `D` the residual vector is `[Jᵀr/‖J‖, ‖r − J·Jᵀr/‖J‖²‖]` and the Jacobian `[‖J‖, 0]ᵀ`,
+/// the rotation by an orthogonal `Q` (first column `J/‖J‖`) of the full `m`-point problem. Moré's
+/// algorithm uses the residuals only through their norm and `Qᵀr`, and the Jacobian only
+/// through its `R` factor and column norms, all of which the rotation keeps; so it takes the
+/// same steps as on the 10⁵ rows, without storing them.
+pub(crate) struct ProjectedByNc<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> {
+    x: &'a [f64],
+    y: &'a [f64],
+    shape: G,
+    /// The reference scale for the next pass: the last `K(D)` found.
+    k_ref: Cell<f64>,
+    /// The last few passes, by the bits of `D`: the solver asks for the Jacobian at a point
+    /// whose residuals it has already seen.
+    memo: RefCell<Vec<(u64, Option<Projected>)>>,
+    passes: Cell<u64>,
+}
+
+impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
+    pub fn new(x: &'a [f64], y: &'a [f64], shape: G) -> Self {
+        Self {
+            x,
+            y,
+            shape,
+            k_ref: Cell::new(0.0),
+            memo: RefCell::new(Vec::new()),
+            passes: Cell::new(0),
+        }
+    }
+
+    /// The sums over every point, on two threads for long transients.
+    fn sums(&self, d: f64, k0: f64) -> Sums {
+        let m = self.x.len();
+        self.passes.set(self.passes.get() + 1);
+        let shape = &self.shape;
+        if !parallel(m) {
+            return sums_over(shape, self.x, self.y, d, k0);
+        }
+        let half = m / 2;
+        let (x1, x2) = self.x.split_at(half);
+        let (y1, y2) = self.y.split_at(half);
+        std::thread::scope(|scope| {
+            let other = scope.spawn(|| sums_over(shape, x2, y2, d, k0));
+            let first = sums_over(shape, x1, y1, d, k0);
+            match other.join() {
+                Ok(second) => first.add(second),
+                Err(p) => std::panic::resume_unwind(p),
+            }
+        })
+    }
+
+    /// The projected problem at `D` (`None` where the model is undefined).
+    fn at(&self, d: f64) -> Option<Projected> {
+        let key = d.to_bits();
+        if let Some((_, p)) = self.memo.borrow().iter().find(|(k, _)| *k == key) {
+            return *p;
+        }
+        let p = if d > 0.0 && d.is_finite() {
+            let k0 = self.k_ref.get();
+            let s = self.sums(d, k0);
+            let k = s.gy / s.gg;
+            // Σ(y − K₀g)² = RSS + (K − K₀)²·Σg², because Σ g·r = 0 at K(D): with K₀ the last
+            // K this keeps the digits that Σy² − (Σgy)²/Σg² would lose.
+            let rss = (s.rss_ref - (k - k0) * (k - k0) * s.gg).max(0.0);
+            let k1 = (s.dy - 2.0 * k * s.gd) / s.gg;
+            let jtj = k * k * s.dd + 2.0 * k * k1 * s.gd + k1 * k1 * s.gg;
+            let jtr = -k * (s.dy - k * s.gd);
+            let ok = [k, rss, jtj, jtr].iter().all(|v| v.is_finite()) && s.gg > 0.0 && jtj > 0.0;
+            if ok {
+                self.k_ref.set(k);
+            }
+            ok.then_some(Projected { rss, jtj, jtr })
+        } else {
+            None
+        };
+        let mut memo = self.memo.borrow_mut();
+        if memo.len() >= 4 {
+            memo.remove(0);
+        }
+        memo.push((key, p));
+        p
+    }
+
+    /// Starting `D` and `K`: the best on a log grid from 1e-14 to 1e-6 m²/s at 40 per decade, each
+    /// with its least-squares `K`, on about 500 evenly strided points. The grid is searched
+    /// coarse to fine: every tenth value first, then the 40-per-decade values within one coarse
+    /// step of the best (the same grid minimum whenever the cost is unimodal at the coarse
+    /// scale, for an eighth of the evaluations).
+    fn start(&self) -> (f64, f64) {
+        let stride = (self.x.len() / START_POINTS).max(1);
+        let sub: Vec<(f64, f64)> = self
+            .x
+            .iter()
+            .zip(self.y)
+            .step_by(stride)
+            .map(|(x, y)| (*x, *y))
+            .collect();
+        let cost = |d: f64| {
+            let (mut gg, mut gy, mut yy) = (0.0, 0.0, 0.0);
+            for &(x, y) in &sub {
+                let g = (self.shape)(d, x).0;
+                gg += g * g;
+                gy += g * y;
+                yy += y * y;
+            }
+            if gg > 0.0 {
+                (yy - gy * gy / gg, gy / gg)
+            } else {
+                (f64::INFINITY, 0.0)
+            }
+        };
+        let (a, b) = (1e-14f64.ln(), 1e-6f64.ln());
+        let steps = 320;
+        let at = |k: usize| (a + (b - a) * k as f64 / steps as f64).exp();
+        let mut best = (f64::INFINITY, 0, 0.0);
+        for k in (0..=steps).step_by(10) {
+            let (c, scale) = cost(at(k));
+            if c < best.0 {
+                best = (c, k, scale);
+            }
+        }
+        let centre = best.1;
+        for k in centre.saturating_sub(9)..=(centre + 9).min(steps) {
+            if k % 10 == 0 {
+                continue;
+            }
+            let (c, scale) = cost(at(k));
+            if c < best.0 {
+                best = (c, k, scale);
+            }
+        }
+        (at(best.1), best.2)
+    }
+
+    /// Fits `[D, K]`: the start grid, Levenberg–Marquardt on the projected problem in `D` to a
+    /// relative reduction of the sum of squares of 1e-10, one Gauss–Newton step from there
+    /// (which the quadratic convergence near the minimum makes as good as the tolerances of
+    /// 1e-15 would), then `K(D)`, `s²·(JᵀJ)⁻¹` and the sandwich covariance for white plus
+    /// AR(1) noise with the full two-column Jacobian at the solution.
+    pub fn solve(&self) -> Result<Solved, FitError> {
+        let m = self.x.len();
+        if m <= 2 {
+            return Err(FitError::TooFewPoints {
+                points: m,
+                parameters: 2,
+            });
+        }
+        let undefined = || FitError::RankDeficient {
+            column: 0,
+            rank: 0,
+            parameters: 2,
+            condition_number: f64::INFINITY,
+        };
+        // The sample's best scale is the reference for the first pass.
+        let (d0, k0) = self.start();
+        self.k_ref.set(k0);
+        let options = SolveOptions {
+            ftol: 1e-10,
+            xtol: 1e-10,
+            ..SolveOptions::default()
+        };
+        let run = minimise(self, DVector::from_element(1, d0), &options)?;
+        let d_lm = run.parameters[0];
+        let lm = self.at(d_lm).ok_or_else(undefined)?;
+        let d_gn = d_lm - lm.jtr / lm.jtj;
+        let mut last = self.final_pass(d_gn);
+        if !last
+            .as_ref()
+            .is_some_and(|f| f.rss <= lm.rss * (1.0 + 1e-12))
+        {
+            // Rounding can make the last step useless, never worse than the solver's point.
+            last = self.final_pass(d_lm);
+        }
+        let last = last.ok_or_else(undefined)?;
+        let (d, k, rss) = (last.d, last.k, last.rss);
+        // JᵀJ of the two-parameter problem, rows (−K·g′, −g).
+        let a = [k * k * last.dd, k * last.gd, last.gg];
+        let det = a[0] * a[2] - a[1] * a[1];
+        if !(det > 0.0) {
+            return Err(undefined());
+        }
+        let inv = [a[2] / det, -a[1] / det, a[0] / det];
+        let dof = m - 2;
+        let s2 = rss / dof as f64;
+        let cov = [[s2 * inv[0], s2 * inv[1]], [s2 * inv[1], s2 * inv[2]]];
+        // The 2-norm condition number of the column-equilibrated Jacobian, from the scaled
+        // normal matrix [[1, c], [c, 1]] (eigenvalues 1 ± |c|).
+        let c = (a[1] / (a[0] * a[2]).sqrt()).abs();
+        let fit = NonlinearFit {
+            parameters: vec![d, k],
+            standard_errors: vec![cov[0][0].sqrt(), cov[1][1].sqrt()],
+            covariance: cov.iter().map(|r| r.to_vec()).collect(),
+            residual_sum_of_squares: rss,
+            residual_standard_deviation: s2.sqrt(),
+            degrees_of_freedom: dof,
+            observations: m,
+            // The Gauss–Newton step counts as one more iteration.
+            iterations: run.iterations + 1,
+            residual_evaluations: self.passes.get(),
+            jacobian_evaluations: run.jacobian_evaluations + 1,
+            termination: run.termination,
+            condition_number: ((1.0 + c) / (1.0 - c)).sqrt(),
+        };
+        let noise = NoiseModel::from_autocorrelation(&autocorrelation(&last.residuals), m);
+        let mut middle = [
+            a[0] * (1.0 - noise.c),
+            a[1] * (1.0 - noise.c),
+            a[2] * (1.0 - noise.c),
+        ];
+        if noise.c > 0.0 && noise.phi > 0.0 {
+            // Σᵢ Σⱼ zᵢ zⱼᵀ φ^|i−j| by the recursion of `regression::sandwich_covariance`, with
+            // the rows z = (−K·g′, −g) made from the stored g and g′.
+            let phi = noise.phi;
+            let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
+            let mut acc = [0.0f64; 3];
+            for (i, (&g, &dg)) in last.g.iter().zip(&last.dg).enumerate() {
+                let z = [-k * dg, -g];
+                if i > 0 {
+                    h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
+                }
+                acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
+                acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
+                acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
+                prev = z;
+            }
+            for j in 0..3 {
+                middle[j] += noise.c * acc[j];
+            }
+        }
+        // inv·middle·inv·s², all symmetric 2 × 2.
+        let mul = |x: [f64; 3], y: [f64; 3]| {
+            [
+                [x[0] * y[0] + x[1] * y[1], x[0] * y[1] + x[1] * y[2]],
+                [x[1] * y[0] + x[2] * y[1], x[1] * y[1] + x[2] * y[2]],
+            ]
+        };
+        let im = mul(inv, middle);
+        let sandwich = [
+            im[0][0] * inv[0] + im[0][1] * inv[1],
+            im[0][0] * inv[1] + im[0][1] * inv[2],
+            im[1][0] * inv[1] + im[1][1] * inv[2],
+        ];
+        let covariance = DMatrix::from_row_slice(
+            2,
+            2,
+            &[
+                sandwich[0] * s2,
+                sandwich[1] * s2,
+                sandwich[1] * s2,
+                sandwich[2] * s2,
+            ],
+        );
+        Ok(Solved {
+            fit,
+            covariance,
+            noise,
+            dof: (noise.effective_points(m) - 2.0).max(1.0),
+        })
+    }
+
+    /// The pass at the solution: `g` and `g′` at every point (kept for the sandwich), `K(D)`,
+    /// the residuals and their sum of squares.
+    fn final_pass(&self, d: f64) -> Option<FinalPass> {
+        if !(d > 0.0 && d.is_finite()) {
+            return None;
+        }
+        self.passes.set(self.passes.get() + 1);
+        let m = self.x.len();
+        let mut g = vec![0.0; m];
+        let mut dg = vec![0.0; m];
+        let shape = &self.shape;
+        let fill = |x: &[f64], g: &mut [f64], dg: &mut [f64]| {
+            for ((&x, g), dg) in x.iter().zip(g.iter_mut()).zip(dg.iter_mut()) {
+                (*g, *dg) = shape(d, x);
+            }
+        };
+        if !parallel(m) {
+            fill(self.x, &mut g, &mut dg);
+        } else {
+            let half = m / 2;
+            let (g1, g2) = g.split_at_mut(half);
+            let (d1, d2) = dg.split_at_mut(half);
+            let (x1, x2) = self.x.split_at(half);
+            std::thread::scope(|scope| {
+                let other = scope.spawn(|| fill(x2, g2, d2));
+                fill(x1, g1, d1);
+                if let Err(p) = other.join() {
+                    std::panic::resume_unwind(p);
+                }
+            });
+        }
+        let (mut gg, mut gy, mut gd, mut dd) = (0.0, 0.0, 0.0, 0.0);
+        for ((&g, &dg), &y) in g.iter().zip(&dg).zip(self.y) {
+            gg += g * g;
+            gy += g * y;
+            gd += g * dg;
+            dd += dg * dg;
+        }
+        let k = gy / gg;
+        let residuals: Vec<f64> = g.iter().zip(self.y).map(|(g, y)| y - k * g).collect();
+        let rss: f64 = residuals.iter().map(|r| r * r).sum();
+        ([k, rss, gg, gd, dd].iter().all(|v| v.is_finite()) && gg > 0.0).then_some(FinalPass {
+            d,
+            k,
+            rss,
+            gg,
+            gd,
+            dd,
+            g,
+            dg,
+            residuals,
+        })
+    }
+}
+
+/// Whether a pass over `m` points is split over two threads.
+fn parallel(m: usize) -> bool {
+    m >= PARALLEL_MIN && std::thread::available_parallelism().map_or(1, usize::from) >= 2
+}
+
+/// One pass of the sums over the points `x`, `y` at `D`, with the reference scale `k0`.
+fn sums_over<G: Fn(f64, f64) -> (f64, f64)>(
+    shape: &G,
+    x: &[f64],
+    y: &[f64],
+    d: f64,
+    k0: f64,
+) -> Sums {
+    let mut s = Sums::default();
+    for (&x, &y) in x.iter().zip(y) {
+        let (g, dg) = shape(d, x);
+        let r = y - k0 * g;
+        s.rss_ref += r * r;
+        s.gg += g * g;
+        s.gy += g * y;
+        s.dy += dg * y;
+        s.gd += g * dg;
+        s.dd += dg * dg;
+    }
+    s
+}
+
+/// What [`ProjectedByNc::final_pass`] returns.
+struct FinalPass {
+    d: f64,
+    k: f64,
+    rss: f64,
+    gg: f64,
+    gd: f64,
+    dd: f64,
+    g: Vec<f64>,
+    dg: Vec<f64>,
+    residuals: Vec<f64>,
+}
+
+impl<G: Fn(f64, f64) -> (f64, f64) + Sync> LeastSquaresProblem for ProjectedByNc<'_, G> {
+    fn residuals(&self, p: &DVector<f64>) -> DVector<f64> {
+        match self.at(p[0]) {
+            Some(q) => {
+                let along = q.jtr / q.jtj.sqrt();
+                DVector::from_vec(vec![along, (q.rss - along * along).max(0.0).sqrt()])
+            }
+            None => DVector::from_element(2, f64::NAN),
+        }
+    }
+
+    fn jacobian(&self, p: &DVector<f64>) -> DMatrix<f64> {
+        match self.at(p[0]) {
+            Some(q) => DMatrix::from_column_slice(2, 1, &[q.jtj.sqrt(), 0.0]),
+            None => DMatrix::from_element(2, 1, f64::NAN),
+        }
+    }
+}
