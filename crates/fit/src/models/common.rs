@@ -264,6 +264,129 @@ pub(crate) fn autocorrelation(r: &[f64]) -> Vec<f64> {
         .collect()
 }
 
+/// [`autocorrelation`] of residuals given in time order by an iterator, without storing them:
+/// the lagged products are summed raw as the residuals pass (the last `LAGS` kept at hand),
+/// then centred with the mean, using the first and last `LAGS` residuals for the ends of each
+/// lag's range: `Σ(rᵢ − μ)(rᵢ₊ₖ − μ) = Σrᵢrᵢ₊ₖ − μ·(Σ_{i<n−k} rᵢ + Σ_{i≥k} rᵢ) + (n − k)·μ²`.
+pub(crate) struct LagSums {
+    n: usize,
+    sum: f64,
+    sum_sq: f64,
+    lagged: [f64; LAGS],
+    first: [f64; LAGS],
+    /// `recent[j]` is residual `n − 1 − j` (zero before the series starts).
+    recent: [f64; LAGS],
+}
+
+impl LagSums {
+    pub fn new() -> Self {
+        Self {
+            n: 0,
+            sum: 0.0,
+            sum_sq: 0.0,
+            lagged: [0.0; LAGS],
+            first: [0.0; LAGS],
+            recent: [0.0; LAGS],
+        }
+    }
+
+    /// Adds the next residuals in order, the products inside the block summed four at a time.
+    pub fn extend(&mut self, r: &[f64]) {
+        let len = r.len();
+        for k in 1..=LAGS {
+            // Products with the residuals before the block: r[i] pairs with residual
+            // n + i − k, which is recent[k − 1 − i].
+            for i in 0..k.min(len) {
+                self.lagged[k - 1] += self.recent[k - 1 - i] * r[i];
+            }
+            if len > k {
+                self.lagged[k - 1] += dot4(&r[k..], &r[..len - k]);
+            }
+        }
+        for (i, &v) in r.iter().enumerate().take(LAGS.saturating_sub(self.n)) {
+            self.first[self.n + i] = v;
+        }
+        if len >= LAGS {
+            for j in 0..LAGS {
+                self.recent[j] = r[len - 1 - j];
+            }
+        } else {
+            self.recent.copy_within(0..LAGS - len, len);
+            for j in 0..len {
+                self.recent[j] = r[len - 1 - j];
+            }
+        }
+        self.sum += r.iter().sum::<f64>();
+        self.sum_sq += dot4(r, r);
+        self.n += len;
+    }
+
+    /// `Σr²` of the residuals added so far.
+    pub fn sum_of_squares(&self) -> f64 {
+        self.sum_sq
+    }
+
+    /// Appends the sums of the residuals that follow those of `self` (both at least `LAGS`
+    /// long; `None` otherwise), adding the lagged products that straddle the join.
+    pub fn join(mut self, next: &LagSums) -> Option<LagSums> {
+        if self.n < LAGS || next.n < LAGS {
+            return None;
+        }
+        for k in 1..=LAGS {
+            // Pairs (n₁ − k + j, n₁ + j) for j < k; residual n₁ − k + j is recent[k − 1 − j].
+            for j in 0..k {
+                self.lagged[k - 1] += self.recent[k - 1 - j] * next.first[j];
+            }
+            self.lagged[k - 1] += next.lagged[k - 1];
+        }
+        self.recent = next.recent;
+        self.n += next.n;
+        self.sum += next.sum;
+        self.sum_sq += next.sum_sq;
+        Some(self)
+    }
+
+    /// ρ(1..=LAGS), as [`autocorrelation`] gives it.
+    pub fn finish(&self) -> Vec<f64> {
+        let n = self.n;
+        let mean = self.sum / n.max(1) as f64;
+        let c0 = (self.sum_sq - n as f64 * mean * mean).max(0.0);
+        (1..=LAGS.min(n.saturating_sub(1)))
+            .map(|k| {
+                if c0 > 0.0 {
+                    let head: f64 = self.first[..k].iter().sum();
+                    let tail: f64 = self.recent[..k].iter().sum();
+                    let centred = self.lagged[k - 1] - mean * (2.0 * self.sum - head - tail)
+                        + (n - k) as f64 * mean * mean;
+                    centred / c0
+                } else {
+                    0.0
+                }
+            })
+            .collect()
+    }
+}
+
+/// `Σ aᵢ·bᵢ` over the shorter length, in four independent running sums.
+fn dot4(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0f64; 4];
+    let (ac, bc) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = ac
+        .remainder()
+        .iter()
+        .zip(bc.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    for (x, y) in ac.zip(bc) {
+        for l in 0..4 {
+            acc[l] += x[l] * y[l];
+        }
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
+}
+
 /// A converged fit with the sandwich covariance for the residuals' own noise model.
 #[derive(Debug, Clone)]
 pub(crate) struct Solved {
@@ -516,15 +639,17 @@ pub(crate) fn linear_fit_rows<const P: usize>(
         beta[j] = slopes[j - 1];
         beta[0] -= slopes[j - 1] * mean[j];
     }
-    let residuals: Vec<f64> = y
-        .iter()
-        .enumerate()
-        .map(|(i, &yi)| {
-            let x = row(i);
-            yi - (0..P).map(|j| beta[j] * x[j]).sum::<f64>()
-        })
-        .collect();
-    let rss: f64 = residuals.iter().map(|r| r * r).sum();
+    let mut lags = LagSums::new();
+    let mut buf = [0.0f64; 256];
+    for start in (0..m).step_by(buf.len()) {
+        let block = &mut buf[..(m - start).min(256)];
+        for (j, r) in block.iter_mut().enumerate() {
+            let x = row(start + j);
+            *r = y[start + j] - (0..P).map(|c| beta[c] * x[c]).sum::<f64>();
+        }
+        lags.extend(block);
+    }
+    let rss = lags.sum_of_squares();
     let dof = m - P;
     let s2 = rss / dof as f64;
     let normal = DMatrix::from_fn(P, P, |a, b| raw[a][b]);
@@ -536,7 +661,7 @@ pub(crate) fn linear_fit_rows<const P: usize>(
     let condition_number = (eig.max() / eig.min()).sqrt();
     let inv = normal.clone().try_inverse().ok_or_else(rank)?;
     let plain = &inv * s2;
-    let noise = NoiseModel::from_autocorrelation(&autocorrelation(&residuals), m);
+    let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
     // The sandwich of `regression::sandwich_covariance` with the rows made on the fly (the
     // Jacobian is −X; the sign cancels in every product).
     let mut middle = &normal * (1.0 - noise.c);
@@ -917,5 +1042,101 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
             noise,
             dof: (noise.effective_points(m) - 2.0).max(1.0),
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn series(n: usize, seed: u64) -> Vec<f64> {
+        // A deterministic AR(1)-like series with an offset, so the mean matters.
+        let mut state = seed | 1;
+        let mut prev = 0.0;
+        (0..n)
+            .map(|_| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let u = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                prev = 0.6 * prev + u;
+                prev + 0.3
+            })
+            .collect()
+    }
+
+    #[test]
+    fn streamed_lag_sums_match_the_direct_autocorrelation() {
+        // Reference: the direct definition in `autocorrelation`.
+        for n in [1, 2, 5, 10, 11, 37, 1000] {
+            let r = series(n, n as u64);
+            let mut lags = LagSums::new();
+            for &v in &r {
+                lags.extend(std::slice::from_ref(&v));
+            }
+            let (a, b) = (autocorrelation(&r), lags.finish());
+            assert_eq!(a.len(), b.len(), "n = {n}");
+            for (x, y) in a.iter().zip(&b) {
+                assert!((x - y).abs() < 1e-12, "n = {n}: {x} vs {y}");
+            }
+        }
+    }
+
+    #[test]
+    fn block_lag_sums_match_one_at_a_time() {
+        let r = series(1000, 11);
+        for block in [1, 3, 10, 17, 256] {
+            let mut lags = LagSums::new();
+            r.chunks(block).for_each(|c| lags.extend(c));
+            for (x, y) in autocorrelation(&r).iter().zip(&lags.finish()) {
+                assert!((x - y).abs() < 1e-12, "block {block}: {x} vs {y}");
+            }
+            let direct: f64 = r.iter().map(|v| v * v).sum();
+            assert!((lags.sum_of_squares() / direct - 1.0).abs() < 1e-13);
+        }
+    }
+
+    #[test]
+    fn joined_lag_sums_match_one_pass() {
+        let r = series(1000, 7);
+        for split in [10, 11, 500, 990] {
+            let (mut a, mut b) = (LagSums::new(), LagSums::new());
+            a.extend(&r[..split]);
+            b.extend(&r[split..]);
+            let joined = a.join(&b).expect("both parts are long enough").finish();
+            for (x, y) in autocorrelation(&r).iter().zip(&joined) {
+                assert!((x - y).abs() < 1e-12, "split {split}: {x} vs {y}");
+            }
+        }
+        let (mut a, b) = (LagSums::new(), LagSums::new());
+        a.extend(&[1.0]);
+        assert!(a.join(&b).is_none());
+    }
+
+    #[test]
+    fn streamed_line_matches_the_householder_line() {
+        // Reference: `linear_fit` (Householder QR) on the same design, I = a + b·t^-½ + c·t^½.
+        let t: Vec<f64> = (1..=2000).map(|k| k as f64 * 1e-3).collect();
+        let noise = series(t.len(), 3);
+        let y: Vec<f64> = t
+            .iter()
+            .zip(&noise)
+            .map(|(t, e)| 2.0 + 0.5 / t.sqrt() - 0.1 * t.sqrt() + 0.01 * e)
+            .collect();
+        let columns = vec![
+            vec![1.0; t.len()],
+            t.iter().map(|t| 1.0 / t.sqrt()).collect(),
+            t.iter().map(|t| t.sqrt()).collect(),
+        ];
+        let qr = linear_fit(&columns, &y).expect("qr line");
+        let streamed =
+            linear_fit_rows(&y, |i| [1.0, columns[1][i], columns[2][i]]).expect("streamed line");
+        for j in 0..3 {
+            assert!((qr.value(j) / streamed.value(j) - 1.0).abs() < 1e-10, "{j}");
+            assert!((qr.se(j) / streamed.se(j) - 1.0).abs() < 1e-8, "{j}");
+        }
+        assert!((qr.noise.c - streamed.noise.c).abs() < 1e-10);
+        assert!((qr.noise.phi - streamed.noise.phi).abs() < 1e-10);
+        assert!((qr.fit.condition_number / streamed.fit.condition_number - 1.0).abs() < 1e-8);
     }
 }

@@ -29,6 +29,7 @@ use crate::models::common::{
 };
 use crate::models::projected::ProjectedByNc;
 use crate::planar::Estimate;
+use crate::special::exp_nonpositive;
 
 /// Which disk expression.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
@@ -62,7 +63,7 @@ pub fn shoup_szabo_df(tau: f64) -> f64 {
 /// which is what the fit evaluates on every point of every pass.
 #[allow(clippy::approx_constant)] // 0.7854 is Shoup & Szabo's published coefficient, not π/4.
 fn shoup_szabo_parts(s: f64) -> (f64, f64) {
-    let e = (-0.7823 * s).exp();
+    let e = exp_nonpositive(-0.7823 * s);
     let f = 0.7854 + 0.8862 * s + 0.2146 * e;
     // d(τ^-½)/dτ = −½·τ^-3/2 = −½·s³, and τ·s³ = s.
     (f, -0.5 * s * (0.8862 - 0.2146 * 0.7823 * e))
@@ -126,17 +127,6 @@ impl DiskExpression {
         match self {
             DiskExpression::MahonOldham => mahon_oldham_df(tau),
             DiskExpression::ShoupSzabo => shoup_szabo_df(tau),
-        }
-    }
-
-    /// `f` and `τ·df/dτ` from `s = τ^-½`.
-    fn parts(self, s: f64) -> (f64, f64) {
-        match self {
-            DiskExpression::MahonOldham => {
-                // θ = 1/(4s²) ≤ 1.281.
-                mahon_oldham_parts(s, 4.0 * MAHON_OLDHAM_JOIN_THETA * s * s >= 1.0)
-            }
-            DiskExpression::ShoupSzabo => shoup_szabo_parts(s),
         }
     }
 
@@ -223,6 +213,24 @@ pub const SHORT_TIME_TAU: f64 = 0.2;
 
 const VALIDITY: &str = "an inlaid disk flush in an insulating plane much wider than the diffusion layer, at the diffusion limit; all t > 0 after double-layer charging and before natural convection";
 
+/// The projected fit of `[D, n·C]` on the points `(u = t^-½, y)` for the disk expression whose
+/// `f` and `τ·df/dτ` are `parts(τ^-½)` (generic, so that they inline into the passes).
+fn solve_disk(
+    u: &[f64],
+    y: &[f64],
+    radius_m: f64,
+    parts: impl Fn(f64) -> (f64, f64) + Sync,
+) -> Result<crate::models::common::Solved, ModelError> {
+    let fr4 = 4.0 * FARADAY_C_PER_MOL * radius_m;
+    let half_r = 0.5 * radius_m;
+    let problem = ProjectedByNc::new(u, y, |d: f64, u: f64| {
+        // s = τ^-½ = r/(2√(D·t)); g = 4·F·r·D·f(τ); ∂g/∂D = 4·F·r·(f + τ·f′) since ∂τ/∂D = τ/D.
+        let (f, tau_df) = parts(half_r / d.sqrt() * u);
+        (fr4 * d * f, fr4 * (f + tau_df))
+    });
+    Ok(problem.solve()?)
+}
+
 /// Fits D and n·C to a transient at an inlaid disk of known radius, with the two closed-form
 /// cross-checks beside the full fit.
 ///
@@ -253,16 +261,13 @@ pub fn fit_microdisk(
     let fr4 = 4.0 * FARADAY_C_PER_MOL * radius_m;
     // t^-½ once: every pass needs s = τ^-½ = (r/(2√D))·t^-½, and so do the cross-check lines.
     let u: Vec<f64> = data.time_s.iter().map(|t| 1.0 / t.sqrt()).collect();
-    let half_r = 0.5 * radius_m;
-    let solve = |parts: fn(DiskExpression, f64) -> (f64, f64)| {
-        ProjectedByNc::new(&u, data.current_a, |d: f64, u: f64| {
-            // g = 4·F·r·D·f(τ); ∂g/∂D = 4·F·r·(f + τ·f′) since ∂τ/∂D = τ/D.
-            let (f, tau_df) = parts(expression, half_r / d.sqrt() * u);
-            (fr4 * d * f, fr4 * (f + tau_df))
-        })
-        .solve()
-    };
-    let solved = solve(DiskExpression::parts)?;
+    let solved = match expression {
+        DiskExpression::MahonOldham => solve_disk(&u, data.current_a, radius_m, |s| {
+            // θ = 1/(4s²) ≤ 1.281.
+            mahon_oldham_parts(s, 4.0 * MAHON_OLDHAM_JOIN_THETA * s * s >= 1.0)
+        }),
+        DiskExpression::ShoupSzabo => solve_disk(&u, data.current_a, radius_m, shoup_szabo_parts),
+    }?;
     let d = solved.estimate(0);
     let nc = solved.estimate(1);
     let tau_range = [

@@ -14,7 +14,7 @@ use std::cell::{Cell, RefCell};
 use nalgebra::{DMatrix, DVector};
 
 use crate::FitError;
-use crate::models::common::{Solved, autocorrelation};
+use crate::models::common::{LagSums, Solved};
 use crate::regression::NoiseModel;
 use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, minimise};
 
@@ -23,6 +23,12 @@ const PARALLEL_MIN: usize = 40_000;
 
 /// Points of the strided sample the start grid runs on.
 const START_POINTS: usize = 500;
+
+/// Points evaluated together in a pass.
+const LANES: usize = 4;
+
+/// Residuals buffered for the lagged sums.
+const BLOCK: usize = 256;
 
 /// The sums of one pass at a given `D`: `Σ(y − K₀g)²` for the reference scale `K₀`, `Σg²`,
 /// `Σg·y`, `Σg′·y`, `Σg·g′` and `Σg′²`.
@@ -52,6 +58,10 @@ impl Sums {
 /// The projected problem at one `D`.
 #[derive(Debug, Clone, Copy)]
 struct Projected {
+    /// The best scale `K(D)`.
+    k: f64,
+    /// The sums of the pass.
+    sums: Sums,
     /// The residual sum of squares at `(D, K(D))`.
     rss: f64,
     /// `JᵀJ` and `Jᵀr` of the projected residual (one column, `∂r/∂D`).
@@ -133,7 +143,13 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             if ok {
                 self.k_ref.set(k);
             }
-            ok.then_some(Projected { rss, jtj, jtr })
+            ok.then_some(Projected {
+                k,
+                sums: s,
+                rss,
+                jtj,
+                jtr,
+            })
         } else {
             None
         };
@@ -149,7 +165,8 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
     /// with its least-squares `K`, on about 500 evenly strided points. The grid is searched
     /// coarse to fine: every tenth value first, then the 40-per-decade values within one coarse
     /// step of the best (the same grid minimum whenever the cost is unimodal at the coarse
-    /// scale, for an eighth of the evaluations).
+    /// scale, for an eighth of the evaluations), then refined by a parabola through the best
+    /// three.
     fn start(&self) -> (f64, f64) {
         let stride = (self.x.len() / START_POINTS).max(1);
         let sub: Vec<(f64, f64)> = self
@@ -184,13 +201,32 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             }
         }
         let centre = best.1;
-        for k in centre.saturating_sub(9)..=(centre + 9).min(steps) {
-            if k % 10 == 0 {
-                continue;
+        let lo = centre.saturating_sub(10);
+        let hi = (centre + 10).min(steps);
+        let mut fine = vec![(f64::INFINITY, 0.0); hi - lo + 1];
+        for k in lo..=hi {
+            fine[k - lo] = if k == centre {
+                (best.0, best.2)
+            } else {
+                cost(at(k))
+            };
+            if fine[k - lo].0 < best.0 {
+                best = (fine[k - lo].0, k, fine[k - lo].1);
             }
-            let (c, scale) = cost(at(k));
-            if c < best.0 {
-                best = (c, k, scale);
+        }
+        // A parabola in ln D through the best grid value and its neighbours, kept when it
+        // lowers the cost: the solver then starts within a fraction of a grid step.
+        let k = best.1;
+        if k > lo && k < hi {
+            let (cm, c0, cp) = (fine[k - 1 - lo].0, fine[k - lo].0, fine[k + 1 - lo].0);
+            let curvature = cm - 2.0 * c0 + cp;
+            if curvature > 0.0 {
+                let offset = (0.5 * (cm - cp) / curvature).clamp(-1.0, 1.0);
+                let d = (a + (b - a) * (k as f64 + offset) / steps as f64).exp();
+                let (c, scale) = cost(d);
+                if c < best.0 {
+                    return (d, scale);
+                }
             }
         }
         (at(best.1), best.2)
@@ -227,18 +263,16 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
         let d_lm = run.parameters[0];
         let lm = self.at(d_lm).ok_or_else(undefined)?;
         let d_gn = d_lm - lm.jtr / lm.jtj;
-        let mut last = self.final_pass(d_gn);
-        if !last
-            .as_ref()
-            .is_some_and(|f| f.rss <= lm.rss * (1.0 + 1e-12))
-        {
-            // Rounding can make the last step useless, never worse than the solver's point.
-            last = self.final_pass(d_lm);
-        }
-        let last = last.ok_or_else(undefined)?;
-        let (d, k, rss) = (last.d, last.k, last.rss);
+        // Rounding can make the last step useless, never worse than the solver's point.
+        let (d, last) = match self.at(d_gn) {
+            Some(gn) if gn.rss <= lm.rss * (1.0 + 1e-12) => (d_gn, gn),
+            _ => (d_lm, lm),
+        };
+        let (k, sums) = (last.k, last.sums);
+        // The residuals once more, for their sum of squares and autocorrelation.
+        let (rss, lags) = self.residual_pass(d, k);
         // JᵀJ of the two-parameter problem, rows (−K·g′, −g).
-        let a = [k * k * last.dd, k * last.gd, last.gg];
+        let a = [k * k * sums.dd, k * sums.gd, sums.gg];
         let det = a[0] * a[2] - a[1] * a[1];
         if !(det > 0.0) {
             return Err(undefined());
@@ -265,7 +299,7 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             termination: run.termination,
             condition_number: ((1.0 + c) / (1.0 - c)).sqrt(),
         };
-        let noise = NoiseModel::from_autocorrelation(&autocorrelation(&last.residuals), m);
+        let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
         let mut middle = [
             a[0] * (1.0 - noise.c),
             a[1] * (1.0 - noise.c),
@@ -273,11 +307,14 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
         ];
         if noise.c > 0.0 && noise.phi > 0.0 {
             // Σᵢ Σⱼ zᵢ zⱼᵀ φ^|i−j| by the recursion of `regression::sandwich_covariance`, with
-            // the rows z = (−K·g′, −g) made from the stored g and g′.
+            // the rows z = (−K·g′, −g) made on the fly (one more pass, only for correlated
+            // residuals).
+            self.passes.set(self.passes.get() + 1);
             let phi = noise.phi;
             let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
             let mut acc = [0.0f64; 3];
-            for (i, (&g, &dg)) in last.g.iter().zip(&last.dg).enumerate() {
+            for (i, &x) in self.x.iter().enumerate() {
+                let (g, dg) = (self.shape)(d, x);
                 let z = [-k * dg, -g];
                 if i > 0 {
                     h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
@@ -322,58 +359,43 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
         })
     }
 
-    /// The pass at the solution: `g` and `g′` at every point (kept for the sandwich), `K(D)`,
-    /// the residuals and their sum of squares.
-    fn final_pass(&self, d: f64) -> Option<FinalPass> {
-        if !(d > 0.0 && d.is_finite()) {
-            return None;
-        }
+    /// The residuals at `(D, K)`: their sum of squares and lagged sums, on two threads for
+    /// long transients.
+    fn residual_pass(&self, d: f64, k: f64) -> (f64, LagSums) {
         self.passes.set(self.passes.get() + 1);
-        let m = self.x.len();
-        let mut g = vec![0.0; m];
-        let mut dg = vec![0.0; m];
         let shape = &self.shape;
-        let fill = |x: &[f64], g: &mut [f64], dg: &mut [f64]| {
-            for ((&x, g), dg) in x.iter().zip(g.iter_mut()).zip(dg.iter_mut()) {
-                (*g, *dg) = shape(d, x);
-            }
-        };
-        if !parallel(m) {
-            fill(self.x, &mut g, &mut dg);
-        } else {
-            let half = m / 2;
-            let (g1, g2) = g.split_at_mut(half);
-            let (d1, d2) = dg.split_at_mut(half);
-            let (x1, x2) = self.x.split_at(half);
-            std::thread::scope(|scope| {
-                let other = scope.spawn(|| fill(x2, g2, d2));
-                fill(x1, g1, d1);
-                if let Err(p) = other.join() {
-                    std::panic::resume_unwind(p);
+        let part = |x: &[f64], y: &[f64]| {
+            let mut lags = LagSums::new();
+            let mut buf = [0.0f64; BLOCK];
+            for (xs, ys) in x.chunks(BLOCK).zip(y.chunks(BLOCK)) {
+                let block = &mut buf[..xs.len()];
+                for ((r, &x), &y) in block.iter_mut().zip(xs).zip(ys) {
+                    *r = y - k * shape(d, x).0;
                 }
-            });
+                lags.extend(block);
+            }
+            (lags.sum_of_squares(), lags)
+        };
+        let m = self.x.len();
+        if !parallel(m) {
+            return part(self.x, self.y);
         }
-        let (mut gg, mut gy, mut gd, mut dd) = (0.0, 0.0, 0.0, 0.0);
-        for ((&g, &dg), &y) in g.iter().zip(&dg).zip(self.y) {
-            gg += g * g;
-            gy += g * y;
-            gd += g * dg;
-            dd += dg * dg;
+        let half = m / 2;
+        let (x1, x2) = self.x.split_at(half);
+        let (y1, y2) = self.y.split_at(half);
+        let ((rss1, lags1), (rss2, lags2)) = std::thread::scope(|scope| {
+            let other = scope.spawn(|| part(x2, y2));
+            let first = part(x1, y1);
+            match other.join() {
+                Ok(second) => (first, second),
+                Err(p) => std::panic::resume_unwind(p),
+            }
+        });
+        match lags1.join(&lags2) {
+            Some(lags) => (rss1 + rss2, lags),
+            // Not reached: both halves of a parallel pass are long.
+            None => part(self.x, self.y),
         }
-        let k = gy / gg;
-        let residuals: Vec<f64> = g.iter().zip(self.y).map(|(g, y)| y - k * g).collect();
-        let rss: f64 = residuals.iter().map(|r| r * r).sum();
-        ([k, rss, gg, gd, dd].iter().all(|v| v.is_finite()) && gg > 0.0).then_some(FinalPass {
-            d,
-            k,
-            rss,
-            gg,
-            gd,
-            dd,
-            g,
-            dg,
-            residuals,
-        })
     }
 }
 
@@ -390,31 +412,37 @@ fn sums_over<G: Fn(f64, f64) -> (f64, f64)>(
     d: f64,
     k0: f64,
 ) -> Sums {
-    let mut s = Sums::default();
-    for (&x, &y) in x.iter().zip(y) {
-        let (g, dg) = shape(d, x);
-        let r = y - k0 * g;
-        s.rss_ref += r * r;
-        s.gg += g * g;
-        s.gy += g * y;
-        s.dy += dg * y;
-        s.gd += g * dg;
-        s.dd += dg * dg;
+    // The shape over a block of points first (a plain map, which the compiler vectorises),
+    // then four running sums of each kind over the block.
+    let mut acc = [[0.0f64; LANES]; 6];
+    let mut gb = [0.0f64; BLOCK];
+    let mut db = [0.0f64; BLOCK];
+    for (xs, ys) in x.chunks(BLOCK).zip(y.chunks(BLOCK)) {
+        let n = xs.len();
+        for ((g, dg), &x) in gb[..n].iter_mut().zip(&mut db[..n]).zip(xs) {
+            (*g, *dg) = shape(d, x);
+        }
+        for i in 0..n {
+            let l = i % LANES;
+            let (g, dg, y) = (gb[i], db[i], ys[i]);
+            let r = y - k0 * g;
+            acc[0][l] += r * r;
+            acc[1][l] += g * g;
+            acc[2][l] += g * y;
+            acc[3][l] += dg * y;
+            acc[4][l] += g * dg;
+            acc[5][l] += dg * dg;
+        }
     }
-    s
-}
-
-/// What [`ProjectedByNc::final_pass`] returns.
-struct FinalPass {
-    d: f64,
-    k: f64,
-    rss: f64,
-    gg: f64,
-    gd: f64,
-    dd: f64,
-    g: Vec<f64>,
-    dg: Vec<f64>,
-    residuals: Vec<f64>,
+    let total = |a: [f64; LANES]| (a[0] + a[1]) + (a[2] + a[3]);
+    Sums {
+        rss_ref: total(acc[0]),
+        gg: total(acc[1]),
+        gy: total(acc[2]),
+        dy: total(acc[3]),
+        gd: total(acc[4]),
+        dd: total(acc[5]),
+    }
 }
 
 impl<G: Fn(f64, f64) -> (f64, f64) + Sync> LeastSquaresProblem for ProjectedByNc<'_, G> {
