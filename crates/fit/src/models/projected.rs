@@ -463,3 +463,93 @@ impl<G: Fn(f64, f64) -> (f64, f64) + Sync> LeastSquaresProblem for ProjectedByNc
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::models::common::{ScaledByNc, Transient};
+
+    /// `I = K·g(D, t)` with the planar-plus-steady-state shape `g = D·(1 + 0.5·r/√(D·t))`
+    /// (a made-up shape with the disk's structure, for the comparison only), on 3000 points
+    /// on `n` points with a little deterministic noise, white or AR(1) with coefficient `phi`.
+    fn transient(n: u32, phi: f64) -> (Vec<f64>, Vec<f64>) {
+        let (d, k) = (7.8e-10, 1.3e9);
+        let t: Vec<f64> = (1..=n).map(|i| f64::from(i) * 3.0 / f64::from(n)).collect();
+        let mut state = 0x2545_f491_4f6c_dd1d_u64;
+        let mut e = 0.0;
+        let y = t
+            .iter()
+            .map(|&t| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let u = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                e = phi * e + u;
+                k * d * (1.0 + 0.5 * 5e-6 / (d * t).sqrt()) * (1.0 + 1e-3 * e)
+            })
+            .collect();
+        (t, y)
+    }
+
+    #[test]
+    fn projected_fit_matches_the_two_parameter_fit() {
+        // Reference: the two-parameter Levenberg–Marquardt of `ScaledByNc` (tolerances 1e-15,
+        // no projection) on the same model and data; short and long (two threads), white and
+        // correlated noise (the sandwich pass).
+        for (n, phi) in [(3000, 0.0), (3000, 0.8), (60_000, 0.0), (60_000, 0.8)] {
+            compare(n, phi);
+        }
+    }
+
+    fn compare(n: u32, phi: f64) {
+        let (t, y) = transient(n, phi);
+        let full = ScaledByNc {
+            data: Transient {
+                time_s: &t,
+                current_a: &y,
+            },
+            shape: |d: f64, t: f64| {
+                let s = 0.5 * 5e-6 / (d * t).sqrt();
+                // ∂/∂D of D·(1 + s) with s ∝ D^-½.
+                (d * (1.0 + s), 1.0 + 0.5 * s)
+            },
+        }
+        .solve()
+        .expect("two-parameter fit");
+        let u: Vec<f64> = t.iter().map(|t| 1.0 / t.sqrt()).collect();
+        let projected = ProjectedByNc::new(&u, &y, |d: f64, u: f64| {
+            let s = 0.5 * 5e-6 / d.sqrt() * u;
+            (d * (1.0 + s), 1.0 + 0.5 * s)
+        })
+        .solve()
+        .expect("projected fit");
+        for j in 0..2 {
+            let (a, b) = (full.value(j), projected.value(j));
+            assert!(
+                (a / b - 1.0).abs() < 1e-9,
+                "{n} {phi} parameter {j}: {a} vs {b}"
+            );
+            let (a, b) = (full.se(j), projected.se(j));
+            assert!(
+                (a / b - 1.0).abs() < 1e-6,
+                "{n} {phi} standard error {j}: {a} vs {b}"
+            );
+        }
+        let (a, b) = (
+            full.fit.residual_sum_of_squares,
+            projected.fit.residual_sum_of_squares,
+        );
+        assert!((a / b - 1.0).abs() < 1e-12, "{n} {phi}: {a} vs {b}");
+        assert!((full.noise.c - projected.noise.c).abs() < 1e-9, "{n} {phi}");
+        assert!(
+            (full.noise.phi - projected.noise.phi).abs() < 1e-9,
+            "{n} {phi}"
+        );
+        if phi > 0.0 {
+            assert!(
+                projected.noise.c > 0.0,
+                "{n}: the correlated case must take the sandwich"
+            );
+        }
+    }
+}
