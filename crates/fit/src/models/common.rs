@@ -299,8 +299,34 @@ impl LagSums {
             for i in 0..k.min(len) {
                 self.lagged[k - 1] += self.recent[k - 1 - i] * r[i];
             }
-            if len > k {
-                self.lagged[k - 1] += dot4(&r[k..], &r[..len - k]);
+        }
+        // Products inside the block: every lag in one sweep, r[i] against r[i − k], four
+        // points at a time (independent running sums per lag and lane).
+        if len > LAGS {
+            let mut acc = [[0.0f64; 4]; LAGS];
+            let body = &r[LAGS..];
+            let chunks = body.len() / 4;
+            for c in 0..chunks {
+                let i = LAGS + 4 * c;
+                for (k, a) in acc.iter_mut().enumerate() {
+                    for l in 0..4 {
+                        a[l] += r[i + l] * r[i + l - k - 1];
+                    }
+                }
+            }
+            for i in LAGS + 4 * chunks..len {
+                for (k, a) in acc.iter_mut().enumerate() {
+                    a[0] += r[i] * r[i - k - 1];
+                }
+            }
+            for (k, a) in acc.iter().enumerate() {
+                self.lagged[k] += (a[0] + a[1]) + (a[2] + a[3]);
+            }
+        }
+        // The pairs inside the block whose later member lies in its first LAGS points.
+        for i in 1..LAGS.min(len) {
+            for k in 1..=i {
+                self.lagged[k - 1] += r[i] * r[i - k];
             }
         }
         for (i, &v) in r.iter().enumerate().take(LAGS.saturating_sub(self.n)) {
