@@ -342,7 +342,7 @@ impl LagSums {
                 self.recent[j] = r[len - 1 - j];
             }
         }
-        self.sum += r.iter().sum::<f64>();
+        self.sum += sum4(r);
         self.sum_sq += dot4(r, r);
         self.n += len;
     }
@@ -391,6 +391,19 @@ impl LagSums {
             })
             .collect()
     }
+}
+
+/// `Σ aᵢ` in four independent running sums.
+fn sum4(a: &[f64]) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let chunks = a.chunks_exact(4);
+    let tail: f64 = chunks.remainder().iter().sum();
+    for x in chunks {
+        for l in 0..4 {
+            acc[l] += x[l];
+        }
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
 }
 
 /// `Σ aᵢ·bᵢ` over the shorter length, in four independent running sums.
