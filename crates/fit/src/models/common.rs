@@ -43,6 +43,18 @@ impl Transient<'_> {
             }
             .into());
         }
+        // One branch-free scan first: on valid data, the usual case, it is all that runs; the
+        // scans below, which stop at the first offending row to name it, only when it fails.
+        let mut ok = true;
+        for (&y, &t) in self.current_a.iter().zip(self.time_s) {
+            ok &= y.is_finite() & t.is_finite() & (t > 0.0);
+        }
+        for w in self.time_s.windows(2) {
+            ok &= w[1] > w[0];
+        }
+        if ok {
+            return Ok(());
+        }
         if let Some(row) = (0..n).find(|&i| !self.current_a[i].is_finite()) {
             return Err(FitError::NonFiniteInput {
                 what: "current",
