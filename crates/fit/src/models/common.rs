@@ -43,6 +43,18 @@ impl Transient<'_> {
             }
             .into());
         }
+        // One branch-free scan first: on valid data, the usual case, it is all that runs; the
+        // scans below, which stop at the first offending row to name it, only when it fails.
+        let mut ok = true;
+        for (&y, &t) in self.current_a.iter().zip(self.time_s) {
+            ok &= y.is_finite() & t.is_finite() & (t > 0.0);
+        }
+        for w in self.time_s.windows(2) {
+            ok &= w[1] > w[0];
+        }
+        if ok {
+            return Ok(());
+        }
         if let Some(row) = (0..n).find(|&i| !self.current_a[i].is_finite()) {
             return Err(FitError::NonFiniteInput {
                 what: "current",
@@ -264,6 +276,168 @@ pub(crate) fn autocorrelation(r: &[f64]) -> Vec<f64> {
         .collect()
 }
 
+/// [`autocorrelation`] of residuals given in time order by an iterator, without storing them:
+/// the lagged products are summed raw as the residuals pass (the last `LAGS` kept at hand),
+/// then centred with the mean, using the first and last `LAGS` residuals for the ends of each
+/// lag's range: `Σ(rᵢ − μ)(rᵢ₊ₖ − μ) = Σrᵢrᵢ₊ₖ − μ·(Σ_{i<n−k} rᵢ + Σ_{i≥k} rᵢ) + (n − k)·μ²`.
+pub(crate) struct LagSums {
+    n: usize,
+    sum: f64,
+    sum_sq: f64,
+    lagged: [f64; LAGS],
+    first: [f64; LAGS],
+    /// `recent[j]` is residual `n − 1 − j` (zero before the series starts).
+    recent: [f64; LAGS],
+}
+
+impl LagSums {
+    pub fn new() -> Self {
+        Self {
+            n: 0,
+            sum: 0.0,
+            sum_sq: 0.0,
+            lagged: [0.0; LAGS],
+            first: [0.0; LAGS],
+            recent: [0.0; LAGS],
+        }
+    }
+
+    /// Adds the next residuals in order, the products inside the block summed four at a time.
+    pub fn extend(&mut self, r: &[f64]) {
+        let len = r.len();
+        for k in 1..=LAGS {
+            // Products with the residuals before the block: r[i] pairs with residual
+            // n + i − k, which is recent[k − 1 − i].
+            for i in 0..k.min(len) {
+                self.lagged[k - 1] += self.recent[k - 1 - i] * r[i];
+            }
+        }
+        // Products inside the block: every lag in one sweep, r[i] against r[i − k], four
+        // points at a time (independent running sums per lag and lane).
+        if len > LAGS {
+            let mut acc = [[0.0f64; 4]; LAGS];
+            let body = &r[LAGS..];
+            let chunks = body.len() / 4;
+            for c in 0..chunks {
+                let i = LAGS + 4 * c;
+                for (k, a) in acc.iter_mut().enumerate() {
+                    for l in 0..4 {
+                        a[l] += r[i + l] * r[i + l - k - 1];
+                    }
+                }
+            }
+            for i in LAGS + 4 * chunks..len {
+                for (k, a) in acc.iter_mut().enumerate() {
+                    a[0] += r[i] * r[i - k - 1];
+                }
+            }
+            for (k, a) in acc.iter().enumerate() {
+                self.lagged[k] += (a[0] + a[1]) + (a[2] + a[3]);
+            }
+        }
+        // The pairs inside the block whose later member lies in its first LAGS points.
+        for i in 1..LAGS.min(len) {
+            for k in 1..=i {
+                self.lagged[k - 1] += r[i] * r[i - k];
+            }
+        }
+        for (i, &v) in r.iter().enumerate().take(LAGS.saturating_sub(self.n)) {
+            self.first[self.n + i] = v;
+        }
+        if len >= LAGS {
+            for j in 0..LAGS {
+                self.recent[j] = r[len - 1 - j];
+            }
+        } else {
+            self.recent.copy_within(0..LAGS - len, len);
+            for j in 0..len {
+                self.recent[j] = r[len - 1 - j];
+            }
+        }
+        self.sum += sum4(r);
+        self.sum_sq += dot4(r, r);
+        self.n += len;
+    }
+
+    /// `Σr²` of the residuals added so far.
+    pub fn sum_of_squares(&self) -> f64 {
+        self.sum_sq
+    }
+
+    /// Appends the sums of the residuals that follow those of `self` (both at least `LAGS`
+    /// long; `None` otherwise), adding the lagged products that straddle the join.
+    pub fn join(mut self, next: &LagSums) -> Option<LagSums> {
+        if self.n < LAGS || next.n < LAGS {
+            return None;
+        }
+        for k in 1..=LAGS {
+            // Pairs (n₁ − k + j, n₁ + j) for j < k; residual n₁ − k + j is recent[k − 1 − j].
+            for j in 0..k {
+                self.lagged[k - 1] += self.recent[k - 1 - j] * next.first[j];
+            }
+            self.lagged[k - 1] += next.lagged[k - 1];
+        }
+        self.recent = next.recent;
+        self.n += next.n;
+        self.sum += next.sum;
+        self.sum_sq += next.sum_sq;
+        Some(self)
+    }
+
+    /// ρ(1..=LAGS), as [`autocorrelation`] gives it.
+    pub fn finish(&self) -> Vec<f64> {
+        let n = self.n;
+        let mean = self.sum / n.max(1) as f64;
+        let c0 = (self.sum_sq - n as f64 * mean * mean).max(0.0);
+        (1..=LAGS.min(n.saturating_sub(1)))
+            .map(|k| {
+                if c0 > 0.0 {
+                    let head: f64 = self.first[..k].iter().sum();
+                    let tail: f64 = self.recent[..k].iter().sum();
+                    let centred = self.lagged[k - 1] - mean * (2.0 * self.sum - head - tail)
+                        + (n - k) as f64 * mean * mean;
+                    centred / c0
+                } else {
+                    0.0
+                }
+            })
+            .collect()
+    }
+}
+
+/// `Σ aᵢ` in four independent running sums.
+fn sum4(a: &[f64]) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let chunks = a.chunks_exact(4);
+    let tail: f64 = chunks.remainder().iter().sum();
+    for x in chunks {
+        for l in 0..4 {
+            acc[l] += x[l];
+        }
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
+}
+
+/// `Σ aᵢ·bᵢ` over the shorter length, in four independent running sums.
+fn dot4(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0f64; 4];
+    let (ac, bc) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = ac
+        .remainder()
+        .iter()
+        .zip(bc.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    for (x, y) in ac.zip(bc) {
+        for l in 0..4 {
+            acc[l] += x[l] * y[l];
+        }
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
+}
+
 /// A converged fit with the sandwich covariance for the residuals' own noise model.
 #[derive(Debug, Clone)]
 pub(crate) struct Solved {
@@ -445,6 +619,147 @@ pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitE
         covariance,
         noise,
         dof: (noise.effective_points(m) - p as f64).max(1.0),
+    })
+}
+
+/// [`linear_fit`] for a design given row by row, whose first column is the constant 1: the
+/// same estimates, plain and sandwich covariances, noise model and condition number, in a few
+/// streaming passes instead of a Householder QR of a stored m × p matrix (which cost more than
+/// the whole disk fit on 10⁵ points). The slopes come from the normal equations of the
+/// columns centred on their exact means, which for the short, well-conditioned designs of the
+/// cross-checks (two or three columns) keep the digits a QR would.
+pub(crate) fn linear_fit_rows<const P: usize>(
+    y: &[f64],
+    row: impl Fn(usize) -> [f64; P],
+) -> Result<Solved, FitError> {
+    let m = y.len();
+    if m <= P {
+        return Err(FitError::TooFewPoints {
+            points: m,
+            parameters: P,
+        });
+    }
+    let rank = || FitError::RankDeficient {
+        column: 0,
+        rank: 0,
+        parameters: P,
+        condition_number: f64::INFINITY,
+    };
+    // Means of the columns and of y.
+    let mut mean = [0.0; P];
+    let mut mean_y = 0.0;
+    for (i, &yi) in y.iter().enumerate() {
+        let x = row(i);
+        for j in 1..P {
+            mean[j] += x[j];
+        }
+        mean_y += yi;
+    }
+    for v in &mut mean {
+        *v /= m as f64;
+    }
+    mean[0] = 1.0;
+    mean_y /= m as f64;
+    // Centred cross products, and the raw XᵀX for the covariances.
+    let mut cxx = [[0.0; P]; P];
+    let mut cxy = [0.0; P];
+    let mut raw = [[0.0; P]; P];
+    for (i, &yi) in y.iter().enumerate() {
+        let x = row(i);
+        let dy = yi - mean_y;
+        for a in 1..P {
+            let da = x[a] - mean[a];
+            cxy[a] += da * dy;
+            for b in 1..P {
+                cxx[a][b] += da * (x[b] - mean[b]);
+            }
+        }
+        for a in 0..P {
+            for b in 0..P {
+                raw[a][b] += x[a] * x[b];
+            }
+        }
+    }
+    let q = P - 1;
+    let centred = DMatrix::from_fn(q, q, |a, b| cxx[a + 1][b + 1]);
+    let rhs = DVector::from_fn(q, |a, _| cxy[a + 1]);
+    let slopes = centred.cholesky().ok_or_else(rank)?.solve(&rhs);
+    let mut beta = [0.0; P];
+    beta[0] = mean_y;
+    for j in 1..P {
+        beta[j] = slopes[j - 1];
+        beta[0] -= slopes[j - 1] * mean[j];
+    }
+    let mut lags = LagSums::new();
+    let mut buf = [0.0f64; 256];
+    for start in (0..m).step_by(buf.len()) {
+        let block = &mut buf[..(m - start).min(256)];
+        for (j, r) in block.iter_mut().enumerate() {
+            let x = row(start + j);
+            *r = y[start + j] - (0..P).map(|c| beta[c] * x[c]).sum::<f64>();
+        }
+        lags.extend(block);
+    }
+    let rss = lags.sum_of_squares();
+    let dof = m - P;
+    let s2 = rss / dof as f64;
+    let normal = DMatrix::from_fn(P, P, |a, b| raw[a][b]);
+    // The 2-norm condition number of the column-equilibrated design, from the eigenvalues of
+    // its normal matrix scaled to unit diagonal (as `linear_fit`).
+    let scale = DVector::from_fn(P, |j, _| 1.0 / normal[(j, j)].sqrt());
+    let scaled = DMatrix::from_fn(P, P, |i, j| normal[(i, j)] * scale[i] * scale[j]);
+    let eig = scaled.symmetric_eigen().eigenvalues;
+    let condition_number = (eig.max() / eig.min()).sqrt();
+    let inv = normal.clone().try_inverse().ok_or_else(rank)?;
+    let plain = &inv * s2;
+    let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
+    // The sandwich of `regression::sandwich_covariance` with the rows made on the fly (the
+    // Jacobian is −X; the sign cancels in every product).
+    let mut middle = &normal * (1.0 - noise.c);
+    if noise.c > 0.0 && noise.phi > 0.0 {
+        let phi = noise.phi;
+        let mut h = [0.0; P];
+        let mut prev = [0.0; P];
+        let mut acc = [[0.0; P]; P];
+        for i in 0..m {
+            let z = row(i);
+            if i > 0 {
+                for c in 0..P {
+                    h[c] = phi * (h[c] + prev[c]);
+                }
+            }
+            for r in 0..P {
+                for c in 0..P {
+                    acc[r][c] += z[r] * z[c] + z[r] * h[c] + h[r] * z[c];
+                }
+            }
+            prev = z;
+        }
+        middle += DMatrix::from_fn(P, P, |a, b| acc[a][b]) * noise.c;
+    }
+    let covariance = &inv * middle * &inv * s2;
+    let fit = NonlinearFit {
+        parameters: beta.to_vec(),
+        standard_errors: (0..P).map(|j| plain[(j, j)].max(0.0).sqrt()).collect(),
+        covariance: (0..P)
+            .map(|i| (0..P).map(|j| plain[(i, j)]).collect())
+            .collect(),
+        residual_sum_of_squares: rss,
+        residual_standard_deviation: s2.sqrt(),
+        degrees_of_freedom: dof,
+        observations: m,
+        iterations: 0,
+        residual_evaluations: 1,
+        jacobian_evaluations: 1,
+        // At the least-squares solution the residuals are orthogonal to the columns.
+        termination: Termination::Gtol,
+        condition_number,
+    };
+    Ok(Solved {
+        fit,
+        covariance,
+        noise,
+        dof: (noise.effective_points(m) - P as f64).max(1.0),
     })
 }
 
@@ -778,5 +1093,101 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
             noise,
             dof: (noise.effective_points(m) - 2.0).max(1.0),
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn series(n: usize, seed: u64) -> Vec<f64> {
+        // A deterministic AR(1)-like series with an offset, so the mean matters.
+        let mut state = seed | 1;
+        let mut prev = 0.0;
+        (0..n)
+            .map(|_| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let u = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                prev = 0.6 * prev + u;
+                prev + 0.3
+            })
+            .collect()
+    }
+
+    #[test]
+    fn streamed_lag_sums_match_the_direct_autocorrelation() {
+        // Reference: the direct definition in `autocorrelation`.
+        for n in [1, 2, 5, 10, 11, 37, 1000] {
+            let r = series(n, n as u64);
+            let mut lags = LagSums::new();
+            for &v in &r {
+                lags.extend(std::slice::from_ref(&v));
+            }
+            let (a, b) = (autocorrelation(&r), lags.finish());
+            assert_eq!(a.len(), b.len(), "n = {n}");
+            for (x, y) in a.iter().zip(&b) {
+                assert!((x - y).abs() < 1e-12, "n = {n}: {x} vs {y}");
+            }
+        }
+    }
+
+    #[test]
+    fn block_lag_sums_match_one_at_a_time() {
+        let r = series(1000, 11);
+        for block in [1, 3, 10, 17, 256] {
+            let mut lags = LagSums::new();
+            r.chunks(block).for_each(|c| lags.extend(c));
+            for (x, y) in autocorrelation(&r).iter().zip(&lags.finish()) {
+                assert!((x - y).abs() < 1e-12, "block {block}: {x} vs {y}");
+            }
+            let direct: f64 = r.iter().map(|v| v * v).sum();
+            assert!((lags.sum_of_squares() / direct - 1.0).abs() < 1e-13);
+        }
+    }
+
+    #[test]
+    fn joined_lag_sums_match_one_pass() {
+        let r = series(1000, 7);
+        for split in [10, 11, 500, 990] {
+            let (mut a, mut b) = (LagSums::new(), LagSums::new());
+            a.extend(&r[..split]);
+            b.extend(&r[split..]);
+            let joined = a.join(&b).expect("both parts are long enough").finish();
+            for (x, y) in autocorrelation(&r).iter().zip(&joined) {
+                assert!((x - y).abs() < 1e-12, "split {split}: {x} vs {y}");
+            }
+        }
+        let (mut a, b) = (LagSums::new(), LagSums::new());
+        a.extend(&[1.0]);
+        assert!(a.join(&b).is_none());
+    }
+
+    #[test]
+    fn streamed_line_matches_the_householder_line() {
+        // Reference: `linear_fit` (Householder QR) on the same design, I = a + b·t^-½ + c·t^½.
+        let t: Vec<f64> = (1..=2000).map(|k| k as f64 * 1e-3).collect();
+        let noise = series(t.len(), 3);
+        let y: Vec<f64> = t
+            .iter()
+            .zip(&noise)
+            .map(|(t, e)| 2.0 + 0.5 / t.sqrt() - 0.1 * t.sqrt() + 0.01 * e)
+            .collect();
+        let columns = vec![
+            vec![1.0; t.len()],
+            t.iter().map(|t| 1.0 / t.sqrt()).collect(),
+            t.iter().map(|t| t.sqrt()).collect(),
+        ];
+        let qr = linear_fit(&columns, &y).expect("qr line");
+        let streamed =
+            linear_fit_rows(&y, |i| [1.0, columns[1][i], columns[2][i]]).expect("streamed line");
+        for j in 0..3 {
+            assert!((qr.value(j) / streamed.value(j) - 1.0).abs() < 1e-10, "{j}");
+            assert!((qr.se(j) / streamed.se(j) - 1.0).abs() < 1e-8, "{j}");
+        }
+        assert!((qr.noise.c - streamed.noise.c).abs() < 1e-10);
+        assert!((qr.noise.phi - streamed.noise.phi).abs() < 1e-10);
+        assert!((qr.fit.condition_number / streamed.fit.condition_number - 1.0).abs() < 1e-8);
     }
 }

@@ -24,10 +24,12 @@ use serde::Serialize;
 
 use crate::constants::FARADAY_C_PER_MOL;
 use crate::models::common::{
-    Known, ModelError, ModelFit, ModelWarningCode, ScaledByNc, Transient, estimate, linear_fit,
-    param, positive, warning,
+    Known, ModelError, ModelFit, ModelWarningCode, Transient, estimate, linear_fit_rows, param,
+    positive, warning,
 };
+use crate::models::projected::ProjectedByNc;
 use crate::planar::Estimate;
+use crate::special::exp_nonpositive;
 
 /// Which disk expression.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
@@ -48,18 +50,23 @@ pub fn disk_tau(d_m2_s: f64, t_s: f64, radius_m: f64) -> f64 {
 }
 
 /// Shoup & Szabo (1982): `f(τ) = 0.7854 + 0.8862·τ^-½ + 0.2146·exp(−0.7823·τ^-½)`, `τ = 4Dt/r²`.
-#[allow(clippy::approx_constant)] // 0.7854 is Shoup & Szabo's published coefficient, not π/4.
 pub fn shoup_szabo_f(tau: f64) -> f64 {
-    let s = 1.0 / tau.sqrt();
-    0.7854 + 0.8862 * s + 0.2146 * (-0.7823 * s).exp()
+    shoup_szabo_parts(1.0 / tau.sqrt()).0
 }
 
 /// `df/dτ` of [`shoup_szabo_f`].
 pub fn shoup_szabo_df(tau: f64) -> f64 {
-    let s = 1.0 / tau.sqrt();
-    // d(τ^-½)/dτ = −½·τ^-3/2 = −½·s³.
-    let ds = -0.5 * s * s * s;
-    (0.8862 - 0.2146 * 0.7823 * (-0.7823 * s).exp()) * ds
+    shoup_szabo_parts(1.0 / tau.sqrt()).1 / tau
+}
+
+/// Shoup & Szabo's `f` and `τ·df/dτ` from `s = τ^-½`: one exponential and multiplications,
+/// which is what the fit evaluates on every point of every pass.
+#[allow(clippy::approx_constant)] // 0.7854 is Shoup & Szabo's published coefficient, not π/4.
+fn shoup_szabo_parts(s: f64) -> (f64, f64) {
+    let e = exp_nonpositive(-0.7823 * s);
+    let f = 0.7854 + 0.8862 * s + 0.2146 * e;
+    // d(τ^-½)/dτ = −½·τ^-3/2 = −½·s³, and τ·s³ = s.
+    (f, -0.5 * s * (0.8862 - 0.2146 * 0.7823 * e))
 }
 
 /// Where Mahon & Oldham (2005) join their two series, in `θ = D·t/r²`.
@@ -68,33 +75,42 @@ pub const MAHON_OLDHAM_JOIN_THETA: f64 = 1.281;
 /// Mahon & Oldham (2005) as `f(τ)` with `I = 4·n·F·D·C·r·f(τ)`, `τ = 4Dt/r²`: `f = (π/4)·g(τ/4)`
 /// with `g` of the module documentation (short-time series for `θ ≤ 1.281`, long-time above).
 pub fn mahon_oldham_f(tau: f64) -> f64 {
-    let pi = std::f64::consts::PI;
-    let th = tau / 4.0;
-    let g = if th <= MAHON_OLDHAM_JOIN_THETA {
-        1.0 / (pi * th).sqrt() + 1.0 + (th / (4.0 * pi)).sqrt() - 3.0 * th / 25.0
-            + 3.0 * th.powf(1.5) / 226.0
-    } else {
-        4.0 / pi + 8.0 / (pi.powi(5) * th).sqrt() + 25.0 * th.powf(-1.5) / 2792.0
-            - th.powf(-2.5) / 3880.0
-            - th.powf(-3.5) / 4500.0
-    };
-    0.25 * pi * g
+    mahon_oldham_parts(1.0 / tau.sqrt(), tau / 4.0 <= MAHON_OLDHAM_JOIN_THETA).0
 }
 
 /// `df/dτ` of [`mahon_oldham_f`].
 pub fn mahon_oldham_df(tau: f64) -> f64 {
+    mahon_oldham_parts(1.0 / tau.sqrt(), tau / 4.0 <= MAHON_OLDHAM_JOIN_THETA).1 / tau
+}
+
+/// Mahon & Oldham's `f` and `τ·df/dτ` from `s = τ^-½` on the short-time (`short`, θ ≤ 1.281)
+/// or long-time branch, with every power of `θ = τ/4 = 1/(4s²)` made from `s` by
+/// multiplication (no `powf`). `τ·df/dτ = (π/4)·θ·dg/dθ`.
+fn mahon_oldham_parts(s: f64, short: bool) -> (f64, f64) {
     let pi = std::f64::consts::PI;
-    let th = tau / 4.0;
-    let dg = if th <= MAHON_OLDHAM_JOIN_THETA {
-        -0.5 / pi.sqrt() * th.powf(-1.5) + 0.5 / (4.0 * pi * th).sqrt() - 3.0 / 25.0
-            + 4.5 * th.sqrt() / 226.0
+    let rpi = pi.sqrt();
+    // θ^-½ = 2s.
+    let q = 2.0 * s;
+    let (g, th_dg) = if short {
+        let sq = 1.0 / q; // √θ
+        let th = sq * sq;
+        let th15 = th * sq;
+        (
+            q / rpi + 1.0 + sq / (2.0 * rpi) - 3.0 * th / 25.0 + 3.0 * th15 / 226.0,
+            -0.5 * q / rpi + 0.25 * sq / rpi - 3.0 * th / 25.0 + 4.5 * th15 / 226.0,
+        )
     } else {
-        -4.0 / pi.powi(5).sqrt() * th.powf(-1.5) - 37.5 * th.powf(-2.5) / 2792.0
-            + 2.5 * th.powf(-3.5) / 3880.0
-            + 3.5 * th.powf(-4.5) / 4500.0
+        let q2 = q * q;
+        let q3 = q2 * q;
+        let q5 = q3 * q2;
+        let q7 = q5 * q2;
+        let c = 1.0 / pi.powi(5).sqrt();
+        (
+            4.0 / pi + 8.0 * c * q + 25.0 * q3 / 2792.0 - q5 / 3880.0 - q7 / 4500.0,
+            -4.0 * c * q - 37.5 * q3 / 2792.0 + 2.5 * q5 / 3880.0 + 3.5 * q7 / 4500.0,
+        )
     };
-    // dθ/dτ = 1/4.
-    0.25 * pi * dg * 0.25
+    (0.25 * pi * g, 0.25 * pi * th_dg)
 }
 
 impl DiskExpression {
@@ -197,6 +213,24 @@ pub const SHORT_TIME_TAU: f64 = 0.2;
 
 const VALIDITY: &str = "an inlaid disk flush in an insulating plane much wider than the diffusion layer, at the diffusion limit; all t > 0 after double-layer charging and before natural convection";
 
+/// The projected fit of `[D, n·C]` on the points `(u = t^-½, y)` for the disk expression whose
+/// `f` and `τ·df/dτ` are `parts(τ^-½)` (generic, so that they inline into the passes).
+fn solve_disk(
+    u: &[f64],
+    y: &[f64],
+    radius_m: f64,
+    parts: impl Fn(f64) -> (f64, f64) + Sync,
+) -> Result<crate::models::common::Solved, ModelError> {
+    let fr4 = 4.0 * FARADAY_C_PER_MOL * radius_m;
+    let half_r = 0.5 * radius_m;
+    let problem = ProjectedByNc::new(u, y, |d: f64, u: f64| {
+        // s = τ^-½ = r/(2√(D·t)); g = 4·F·r·D·f(τ); ∂g/∂D = 4·F·r·(f + τ·f′) since ∂τ/∂D = τ/D.
+        let (f, tau_df) = parts(half_r / d.sqrt() * u);
+        (fr4 * d * f, fr4 * (f + tau_df))
+    });
+    Ok(problem.solve()?)
+}
+
 /// Fits D and n·C to a transient at an inlaid disk of known radius, with the two closed-form
 /// cross-checks beside the full fit.
 ///
@@ -225,16 +259,15 @@ pub fn fit_microdisk(
         });
     }
     let fr4 = 4.0 * FARADAY_C_PER_MOL * radius_m;
-    let problem = ScaledByNc {
-        data: *data,
-        shape: |d: f64, t: f64| {
-            // g = 4·F·r·D·f(τ); ∂g/∂D = 4·F·r·(f + τ·f′) since ∂τ/∂D = τ/D.
-            let tau = disk_tau(d, t, radius_m);
-            let f = expression.f(tau);
-            (fr4 * d * f, fr4 * (f + tau * expression.df(tau)))
-        },
-    };
-    let solved = problem.solve()?;
+    // t^-½ once: every pass needs s = τ^-½ = (r/(2√D))·t^-½, and so do the cross-check lines.
+    let u: Vec<f64> = data.time_s.iter().map(|t| 1.0 / t.sqrt()).collect();
+    let solved = match expression {
+        DiskExpression::MahonOldham => solve_disk(&u, data.current_a, radius_m, |s| {
+            // θ = 1/(4s²) ≤ 1.281.
+            mahon_oldham_parts(s, 4.0 * MAHON_OLDHAM_JOIN_THETA * s * s >= 1.0)
+        }),
+        DiskExpression::ShoupSzabo => solve_disk(&u, data.current_a, radius_m, shoup_szabo_parts),
+    }?;
     let d = solved.estimate(0);
     let nc = solved.estimate(1);
     let tau_range = [
@@ -265,19 +298,19 @@ pub fn fit_microdisk(
     let t_of_tau = |tau: f64| tau * radius_m * radius_m / (4.0 * d.value);
     let long_window = data.window(t_of_tau(LONG_TIME_TAU), f64::INFINITY);
     let short_window = data.window(0.0, t_of_tau(SHORT_TIME_TAU));
-    // Long window: columns [1, t^-½]; short window: [1, t^-½, t^½].
+    // Long window: columns [1, t^-½]; short window: [1, t^-½, t^½], with t^-½ taken from `u`
+    // (the windows are sub-slices of the data, so their offset indexes it).
+    let offset = |w: &Transient<'_>| data.time_s.partition_point(|&t| t < w.time_s[0]);
     let line = |w: &Transient<'_>, sqrt_term: bool| -> Option<crate::models::common::Solved> {
         if w.len() < 5 {
             return None;
         }
-        let mut columns = vec![
-            vec![1.0; w.len()],
-            w.time_s.iter().map(|t| 1.0 / t.sqrt()).collect(),
-        ];
+        let u = &u[offset(w)..][..w.len()];
         if sqrt_term {
-            columns.push(w.time_s.iter().map(|t| t.sqrt()).collect());
+            linear_fit_rows(w.current_a, |i| [1.0, u[i], w.time_s[i].sqrt()]).ok()
+        } else {
+            linear_fit_rows(w.current_a, |i| [1.0, u[i]]).ok()
         }
-        linear_fit(&columns, w.current_a).ok()
     };
     let long_fit = line(&long_window, false);
     let short_fit = line(&short_window, true);

@@ -9,5 +9,6 @@ pub mod edge;
 pub mod kinetics;
 pub mod microdisk;
 pub mod planar;
+mod projected;
 pub mod slab;
 pub mod sphere;

@@ -283,8 +283,91 @@ pub fn solve<P: LeastSquaresProblem + ?Sized>(
     p0: DVector<f64>,
     options: &SolveOptions,
 ) -> Result<NonlinearFit, FitError> {
-    let solver = LevenbergMarquardt::new(*options)?;
     let n = p0.len();
+    let Minimised {
+        parameters,
+        termination,
+        iterations,
+        residual_evaluations,
+        jacobian_evaluations,
+    } = minimise(problem, p0, options)?;
+    let residuals = problem.residuals(&parameters);
+    let m = residuals.len();
+    if residuals.iter().any(|v| !v.is_finite()) {
+        return Err(FitError::NonFiniteResiduals {
+            iteration: iterations,
+        });
+    }
+    let jacobian = problem.jacobian(&parameters);
+    if jacobian.shape() != (m, n) {
+        return Err(FitError::ShapeMismatch {
+            what: "jacobian",
+            rows: jacobian.nrows(),
+            columns: jacobian.ncols(),
+            expected_rows: m,
+            expected_columns: n,
+        });
+    }
+    if jacobian.iter().any(|v| !v.is_finite()) {
+        return Err(FitError::NonFiniteJacobian {
+            iteration: iterations,
+        });
+    }
+
+    let factor = Equilibrated::new(jacobian)?;
+    let inverse_gram = factor.inverse_gram();
+    let rss = residuals.norm_squared();
+    let dof = m - n;
+    let s2 = rss / dof as f64;
+    let covariance: Vec<Vec<f64>> = (0..n)
+        .map(|i| (0..n).map(|j| s2 * inverse_gram[(i, j)]).collect())
+        .collect();
+    let standard_errors = (0..n).map(|j| covariance[j][j].max(0.0).sqrt()).collect();
+
+    Ok(NonlinearFit {
+        parameters: parameters.iter().copied().collect(),
+        standard_errors,
+        covariance,
+        residual_sum_of_squares: rss,
+        residual_standard_deviation: s2.sqrt(),
+        degrees_of_freedom: dof,
+        observations: m,
+        iterations,
+        residual_evaluations: residual_evaluations + 1,
+        jacobian_evaluations: jacobian_evaluations + 1,
+        termination,
+        condition_number: factor.condition_number(),
+    })
+}
+
+/// Where [`LevenbergMarquardt`] stopped, as [`minimise`] returns it.
+#[derive(Debug, Clone)]
+pub(crate) struct Minimised {
+    /// The parameters at the end (model units).
+    pub parameters: DVector<f64>,
+    /// The convergence test that stopped the solver.
+    pub termination: Termination,
+    /// Outer iterations (count).
+    pub iterations: u64,
+    /// Residual evaluations made by the solver (count).
+    pub residual_evaluations: u64,
+    /// Jacobian evaluations made by the solver (count).
+    pub jacobian_evaluations: u64,
+}
+
+/// Runs [`LevenbergMarquardt`] under argmin's executor from `p0`: the machinery of [`solve`]
+/// without the covariance at the end, for callers that compute it their own way (a model
+/// whose residuals are presented to the solver in compressed form, say).
+///
+/// # Errors
+///
+/// As [`solve`], less the checks of the Jacobian at the solution.
+pub(crate) fn minimise<P: LeastSquaresProblem + ?Sized>(
+    problem: &P,
+    p0: DVector<f64>,
+    options: &SolveOptions,
+) -> Result<Minimised, FitError> {
+    let solver = LevenbergMarquardt::new(*options)?;
     let result = Executor::new(ArgminProblem::new(problem), solver)
         .configure(|state| {
             state
@@ -335,52 +418,12 @@ pub fn solve<P: LeastSquaresProblem + ?Sized>(
             row,
         });
     }
-    let residuals = problem.residuals(&parameters);
-    let m = residuals.len();
-    if residuals.iter().any(|v| !v.is_finite()) {
-        return Err(FitError::NonFiniteResiduals {
-            iteration: iterations,
-        });
-    }
-    let jacobian = problem.jacobian(&parameters);
-    if jacobian.shape() != (m, n) {
-        return Err(FitError::ShapeMismatch {
-            what: "jacobian",
-            rows: jacobian.nrows(),
-            columns: jacobian.ncols(),
-            expected_rows: m,
-            expected_columns: n,
-        });
-    }
-    if jacobian.iter().any(|v| !v.is_finite()) {
-        return Err(FitError::NonFiniteJacobian {
-            iteration: iterations,
-        });
-    }
-
-    let factor = Equilibrated::new(jacobian)?;
-    let inverse_gram = factor.inverse_gram();
-    let rss = residuals.norm_squared();
-    let dof = m - n;
-    let s2 = rss / dof as f64;
-    let covariance: Vec<Vec<f64>> = (0..n)
-        .map(|i| (0..n).map(|j| s2 * inverse_gram[(i, j)]).collect())
-        .collect();
-    let standard_errors = (0..n).map(|j| covariance[j][j].max(0.0).sqrt()).collect();
-
-    Ok(NonlinearFit {
-        parameters: parameters.iter().copied().collect(),
-        standard_errors,
-        covariance,
-        residual_sum_of_squares: rss,
-        residual_standard_deviation: s2.sqrt(),
-        degrees_of_freedom: dof,
-        observations: m,
-        iterations,
-        residual_evaluations: residual_evaluations + 1,
-        jacobian_evaluations: jacobian_evaluations + 1,
+    Ok(Minimised {
+        parameters,
         termination,
-        condition_number: factor.condition_number(),
+        iterations,
+        residual_evaluations,
+        jacobian_evaluations,
     })
 }
 
