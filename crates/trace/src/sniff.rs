@@ -393,6 +393,33 @@ pub(crate) fn sniff(
                 line: c.start as u64 + 1,
             });
         }
+        // A row or two of numbers, too few to make a table: say so, rather than call the
+        // last line a header.
+        if at_eof {
+            let rows = [
+                Delimiter::Tab,
+                Delimiter::Semicolon,
+                Delimiter::Comma,
+                Delimiter::Whitespace,
+            ]
+            .into_iter()
+            .flat_map(|d| [DecimalMark::Point, DecimalMark::Comma].map(move |m| (d, m)))
+            .map(|(d, m)| {
+                lines
+                    .iter()
+                    .filter(|l| matches!(classify(l, d, m), Class::Numeric(k) if k >= 2))
+                    .count()
+            })
+            .max()
+            .unwrap_or(0);
+            if rows > 0 {
+                return Err(ImportError::TooFewRows {
+                    file: file.to_owned(),
+                    rows,
+                    needed: crate::MIN_ROWS,
+                });
+            }
+        }
         // A header with nothing under it?
         let nonblank: Vec<usize> = (0..lines.len())
             .filter(|&i| !lines[i].iter().all(u8::is_ascii_whitespace))

@@ -87,6 +87,22 @@ fn fewer_rows_than_a_fit_needs() {
 }
 
 #[test]
+fn one_or_two_rows_of_numbers_are_too_few_not_a_header() {
+    // Too short to find a table in: a preamble, a header, one row and a broken one (decimal
+    // commas, semicolons). The last line was once reported as "the header on line 5".
+    let text = "Messy export, written by hand for a test\nrun;2\nzeit [ms];strom [nA]\n0,5;12,1\n1,5;abc\n";
+    assert_eq!(
+        err(text.as_bytes()),
+        "only 1 data rows; a fit needs at least 10 (was the export cut short?): bad.csv"
+    );
+    let text = format!("t (s),I (A)\n{}", good_rows(2));
+    assert_eq!(
+        err(text.as_bytes()),
+        "only 2 data rows; a fit needs at least 10 (was the export cut short?): bad.csv"
+    );
+}
+
+#[test]
 fn nan_and_inf_cells_are_located() {
     let mut text = format!("t (s),I (A)\n{}", good_rows(20));
     text.push_str("0.21,NaN\n0.22,inf\n");
