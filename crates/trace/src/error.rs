@@ -190,7 +190,8 @@ pub enum ImportError {
     },
     /// Fewer rows than any fit can use.
     #[error(
-        "only {rows} data rows; a fit needs at least {needed} (was the export cut short?): {file}"
+        "only {rows} data {}; a fit needs at least {needed} (was the export cut short?): {file}",
+        if *rows == 1 { "row" } else { "rows" }
     )]
     TooFewRows {
         /// File name or label.

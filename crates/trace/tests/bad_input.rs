@@ -93,7 +93,7 @@ fn one_or_two_rows_of_numbers_are_too_few_not_a_header() {
     let text = "Messy export, written by hand for a test\nrun;2\nzeit [ms];strom [nA]\n0,5;12,1\n1,5;abc\n";
     assert_eq!(
         err(text.as_bytes()),
-        "only 1 data rows; a fit needs at least 10 (was the export cut short?): bad.csv"
+        "only 1 data row; a fit needs at least 10 (was the export cut short?): bad.csv"
     );
     let text = format!("t (s),I (A)\n{}", good_rows(2));
     assert_eq!(
