@@ -1040,52 +1040,17 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
             residuals.push(y - k * (self.shape)(d, t).0);
         }
         let noise = NoiseModel::from_autocorrelation(&autocorrelation(&residuals), m);
-        let mut middle = [
-            a[0] * (1.0 - noise.c),
-            a[1] * (1.0 - noise.c),
-            a[2] * (1.0 - noise.c),
-        ];
-        if noise.c > 0.0 && noise.phi > 0.0 {
-            let phi = noise.phi;
-            let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
-            let mut acc = [0.0f64; 3];
-            for (i, &t) in self.data.time_s.iter().enumerate() {
+        let covariance = two_parameter_sandwich(
+            a,
+            inv,
+            s2,
+            noise,
+            self.data.time_s,
+            |t| {
                 let (g, dg) = (self.shape)(d, t);
-                let z = [-k * dg, -g];
-                if i > 0 {
-                    h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
-                }
-                acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
-                acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
-                acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
-                prev = z;
-            }
-            for j in 0..3 {
-                middle[j] += noise.c * acc[j];
-            }
-        }
-        // inv·middle·inv·s², all symmetric 2 × 2.
-        let mul = |x: [f64; 3], y: [f64; 3]| {
-            [
-                [x[0] * y[0] + x[1] * y[1], x[0] * y[1] + x[1] * y[2]],
-                [x[1] * y[0] + x[2] * y[1], x[1] * y[1] + x[2] * y[2]],
-            ]
-        };
-        let im = mul(inv, middle);
-        let sandwich = [
-            im[0][0] * inv[0] + im[0][1] * inv[1],
-            im[0][0] * inv[1] + im[0][1] * inv[2],
-            im[1][0] * inv[1] + im[1][1] * inv[2],
-        ];
-        let covariance = DMatrix::from_row_slice(
-            2,
-            2,
-            &[
-                sandwich[0] * s2,
-                sandwich[1] * s2,
-                sandwich[1] * s2,
-                sandwich[2] * s2,
-            ],
+                [-k * dg, -g]
+            },
+            || {},
         );
         Ok(Solved {
             fit,
@@ -1094,6 +1059,69 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
             dof: (noise.effective_points(m) - 2.0).max(1.0),
         })
     }
+}
+
+/// The sandwich covariance of a two-parameter fit whose Jacobian rows are `z = (−K·g′, −g)`
+/// at the times `at`: `a` = the packed JᵀJ `[a₀₀, a₀₁, a₁₁]`, `inv` its inverse, `s2` the
+/// residual variance. Under the AR(1) `noise`, the middle Σᵢ Σⱼ zᵢ zⱼᵀ φ^|i−j| is summed by
+/// the recursion of `regression::sandwich_covariance` with the rows made on the fly (one more
+/// pass over `at`, only for correlated residuals); `pass` is called when it runs.
+pub(crate) fn two_parameter_sandwich(
+    a: [f64; 3],
+    inv: [f64; 3],
+    s2: f64,
+    noise: NoiseModel,
+    at: &[f64],
+    row: impl Fn(f64) -> [f64; 2],
+    pass: impl FnOnce(),
+) -> DMatrix<f64> {
+    let mut middle = [
+        a[0] * (1.0 - noise.c),
+        a[1] * (1.0 - noise.c),
+        a[2] * (1.0 - noise.c),
+    ];
+    if noise.c > 0.0 && noise.phi > 0.0 {
+        pass();
+        let phi = noise.phi;
+        let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
+        let mut acc = [0.0f64; 3];
+        for (i, &x) in at.iter().enumerate() {
+            let z = row(x);
+            if i > 0 {
+                h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
+            }
+            acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
+            acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
+            acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
+            prev = z;
+        }
+        for j in 0..3 {
+            middle[j] += noise.c * acc[j];
+        }
+    }
+    // inv·middle·inv·s², all symmetric 2 × 2.
+    let mul = |x: [f64; 3], y: [f64; 3]| {
+        [
+            [x[0] * y[0] + x[1] * y[1], x[0] * y[1] + x[1] * y[2]],
+            [x[1] * y[0] + x[2] * y[1], x[1] * y[1] + x[2] * y[2]],
+        ]
+    };
+    let im = mul(inv, middle);
+    let sandwich = [
+        im[0][0] * inv[0] + im[0][1] * inv[1],
+        im[0][0] * inv[1] + im[0][1] * inv[2],
+        im[1][0] * inv[1] + im[1][1] * inv[2],
+    ];
+    DMatrix::from_row_slice(
+        2,
+        2,
+        &[
+            sandwich[0] * s2,
+            sandwich[1] * s2,
+            sandwich[1] * s2,
+            sandwich[2] * s2,
+        ],
+    )
 }
 
 #[cfg(test)]

@@ -14,7 +14,7 @@ use std::cell::{Cell, RefCell};
 use nalgebra::{DMatrix, DVector};
 
 use crate::FitError;
-use crate::models::common::{LagSums, Solved};
+use crate::models::common::{LagSums, Solved, two_parameter_sandwich};
 use crate::regression::NoiseModel;
 use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, minimise};
 
@@ -309,56 +309,18 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             condition_number: ((1.0 + c) / (1.0 - c)).sqrt(),
         };
         let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
-        let mut middle = [
-            a[0] * (1.0 - noise.c),
-            a[1] * (1.0 - noise.c),
-            a[2] * (1.0 - noise.c),
-        ];
-        if noise.c > 0.0 && noise.phi > 0.0 {
-            // Σᵢ Σⱼ zᵢ zⱼᵀ φ^|i−j| by the recursion of `regression::sandwich_covariance`, with
-            // the rows z = (−K·g′, −g) made on the fly (one more pass, only for correlated
-            // residuals).
-            self.passes.set(self.passes.get() + 1);
-            let phi = noise.phi;
-            let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
-            let mut acc = [0.0f64; 3];
-            for (i, &x) in self.x.iter().enumerate() {
+        // One more pass over the data, only for correlated residuals.
+        let covariance = two_parameter_sandwich(
+            a,
+            inv,
+            s2,
+            noise,
+            self.x,
+            |x| {
                 let (g, dg) = (self.shape)(d, x);
-                let z = [-k * dg, -g];
-                if i > 0 {
-                    h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
-                }
-                acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
-                acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
-                acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
-                prev = z;
-            }
-            for j in 0..3 {
-                middle[j] += noise.c * acc[j];
-            }
-        }
-        // inv·middle·inv·s², all symmetric 2 × 2.
-        let mul = |x: [f64; 3], y: [f64; 3]| {
-            [
-                [x[0] * y[0] + x[1] * y[1], x[0] * y[1] + x[1] * y[2]],
-                [x[1] * y[0] + x[2] * y[1], x[1] * y[1] + x[2] * y[2]],
-            ]
-        };
-        let im = mul(inv, middle);
-        let sandwich = [
-            im[0][0] * inv[0] + im[0][1] * inv[1],
-            im[0][0] * inv[1] + im[0][1] * inv[2],
-            im[1][0] * inv[1] + im[1][1] * inv[2],
-        ];
-        let covariance = DMatrix::from_row_slice(
-            2,
-            2,
-            &[
-                sandwich[0] * s2,
-                sandwich[1] * s2,
-                sandwich[1] * s2,
-                sandwich[2] * s2,
-            ],
+                [-k * dg, -g]
+            },
+            || self.passes.set(self.passes.get() + 1),
         );
         Ok(Solved {
             fit,
