@@ -87,7 +87,7 @@ impl HelpWindow {
         ui.strong("Getting files in");
         para(
             ui,
-            "Drop current–time files onto the window, use Open files…, type a path in the Runs panel, or name them on the command line: diffusor gui FILE… The importer finds the separator, decimal mark, units, the step and its sign; what it could not read is shown beside the run.",
+            "Drop current–time files onto the window, use Open files…, type a path in the Runs panel, or name them on the command line: diffusor gui FILE… The importer finds the separator, decimal mark, units, the step and its sign; what it could not read is shown beside the run. A saved session (a .json file) opens the same ways, replacing the runs shown; while a large file is read, a bar beside its run shows the stage, and Cancel (Esc) stops it.",
         );
         ui.add_space(6.0);
         ui.strong("Reading the plots");
