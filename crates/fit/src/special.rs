@@ -232,11 +232,6 @@ mod tests {
             );
         }
     }
-}
-
-#[cfg(test)]
-mod exp_tests {
-    use super::exp_nonpositive;
 
     #[test]
     fn exp_nonpositive_matches_the_library_exp() {

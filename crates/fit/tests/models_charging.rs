@@ -3,7 +3,7 @@
 //! D, Ru and Cdl from noisy synthetic transients that include the charging region.
 
 use diffusor_fit::constants::CM2_PER_S;
-use diffusor_fit::models::charging::fit_cottrell_charging;
+use diffusor_fit::models::charging::{ChargingFit, fit_cottrell_charging};
 use diffusor_fit::models::common::{ModelError, Transient};
 use diffusor_fit::models::planar::cottrell_current_a;
 use rand::SeedableRng;
@@ -40,6 +40,19 @@ fn transient_from(seed: u64, t_first: f64, b: f64) -> (Vec<f64>, Vec<f64>) {
     (t, i)
 }
 
+/// The fit with this cell's n, A and C and its step height.
+fn fit_cell(t: &[f64], i: &[f64]) -> ChargingFit {
+    fit_cottrell_charging(
+        &Transient {
+            time_s: t,
+            current_a: i,
+        },
+        Some((1.0, AREA_M2, C)),
+        Some(STEP_V),
+    )
+    .expect("the charging fit")
+}
+
 #[test]
 fn recovers_d_ru_and_cdl_with_every_point_used() {
     // Project requirement: true values within 2 % and inside the 95 % intervals, as coverage
@@ -47,15 +60,7 @@ fn recovers_d_ru_and_cdl_with_every_point_used() {
     let (mut d_in, mut ru_in, mut c_in) = (0, 0, 0);
     for seed in 0..40 {
         let (t, i) = transient(seed);
-        let fit = fit_cottrell_charging(
-            &Transient {
-                time_s: &t,
-                current_a: &i,
-            },
-            Some((1.0, AREA_M2, C)),
-            Some(STEP_V),
-        )
-        .unwrap();
+        let fit = fit_cell(&t, &i);
         let d = fit.fit.diffusion_m2_s.unwrap();
         let (ru, cdl) = fit.ru_ohm_and_cdl_f.unwrap();
         if seed == 0 {
@@ -109,15 +114,7 @@ fn a_charging_decay_barely_in_the_data_is_flagged() {
     // a few samples. The fit must say that τ and ΔE/Ru are not determined (this program's
     // convention: 10 % each) rather than present them as results.
     let (t, i) = transient_from(7, 9.0 * RU_OHM * CDL_F, 0.0);
-    let fit = fit_cottrell_charging(
-        &Transient {
-            time_s: &t,
-            current_a: &i,
-        },
-        Some((1.0, AREA_M2, C)),
-        Some(STEP_V),
-    )
-    .unwrap();
+    let fit = fit_cell(&t, &i);
     println!(
         "τ = {:?}, amplitude = {:?}; {}",
         fit.time_constant_s, fit.charging_amplitude_a, fit.fit.validity_check

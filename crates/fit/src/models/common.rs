@@ -588,23 +588,48 @@ pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitE
         condition_number: f64::INFINITY,
     };
     let normal = jacobian.transpose() * &jacobian;
-    // The 2-norm condition number of the column-equilibrated Jacobian, from the eigenvalues of
+    let plain = normal.clone().try_inverse().ok_or_else(rank)? * s2;
+    let noise = NoiseModel::from_autocorrelation(&autocorrelation(residuals.as_slice()), m);
+    let covariance = sandwich_covariance(&jacobian, s2, noise).ok_or_else(rank)?;
+    Ok(closed_form(
+        start.iter().copied().collect(),
+        &normal,
+        &plain,
+        covariance,
+        rss,
+        m,
+        noise,
+    ))
+}
+
+/// A closed-form least-squares solution as a [`Solved`]: the estimates, the normal matrix
+/// XᵀX (for the condition number), the plain covariance s²·(XᵀX)⁻¹, the sandwich
+/// `covariance`, the residual sum of squares of `m` points and the residuals' noise model.
+fn closed_form(
+    parameters: Vec<f64>,
+    normal: &DMatrix<f64>,
+    plain: &DMatrix<f64>,
+    covariance: DMatrix<f64>,
+    rss: f64,
+    m: usize,
+    noise: NoiseModel,
+) -> Solved {
+    let p = parameters.len();
+    let dof = m - p;
+    // The 2-norm condition number of the column-equilibrated design, from the eigenvalues of
     // its normal matrix scaled to unit diagonal.
     let scale = DVector::from_fn(p, |j, _| 1.0 / normal[(j, j)].sqrt());
     let scaled = DMatrix::from_fn(p, p, |i, j| normal[(i, j)] * scale[i] * scale[j]);
     let eig = scaled.symmetric_eigen().eigenvalues;
     let condition_number = (eig.max() / eig.min()).sqrt();
-    let plain = normal.try_inverse().ok_or_else(rank)? * s2;
-    let noise = NoiseModel::from_autocorrelation(&autocorrelation(residuals.as_slice()), m);
-    let covariance = sandwich_covariance(&jacobian, s2, noise).ok_or_else(rank)?;
     let fit = NonlinearFit {
-        parameters: start.iter().copied().collect(),
+        parameters,
         standard_errors: (0..p).map(|j| plain[(j, j)].max(0.0).sqrt()).collect(),
         covariance: (0..p)
             .map(|i| (0..p).map(|j| plain[(i, j)]).collect())
             .collect(),
         residual_sum_of_squares: rss,
-        residual_standard_deviation: s2.sqrt(),
+        residual_standard_deviation: (rss / dof as f64).sqrt(),
         degrees_of_freedom: dof,
         observations: m,
         iterations: 0,
@@ -614,12 +639,12 @@ pub(crate) fn linear_fit(columns: &[Vec<f64>], y: &[f64]) -> Result<Solved, FitE
         termination: Termination::Gtol,
         condition_number,
     };
-    Ok(Solved {
+    Solved {
         fit,
         covariance,
         noise,
         dof: (noise.effective_points(m) - p as f64).max(1.0),
-    })
+    }
 }
 
 /// [`linear_fit`] for a design given row by row, whose first column is the constant 1: the
@@ -704,12 +729,6 @@ pub(crate) fn linear_fit_rows<const P: usize>(
     let dof = m - P;
     let s2 = rss / dof as f64;
     let normal = DMatrix::from_fn(P, P, |a, b| raw[a][b]);
-    // The 2-norm condition number of the column-equilibrated design, from the eigenvalues of
-    // its normal matrix scaled to unit diagonal (as `linear_fit`).
-    let scale = DVector::from_fn(P, |j, _| 1.0 / normal[(j, j)].sqrt());
-    let scaled = DMatrix::from_fn(P, P, |i, j| normal[(i, j)] * scale[i] * scale[j]);
-    let eig = scaled.symmetric_eigen().eigenvalues;
-    let condition_number = (eig.max() / eig.min()).sqrt();
     let inv = normal.clone().try_inverse().ok_or_else(rank)?;
     let plain = &inv * s2;
     let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
@@ -738,29 +757,15 @@ pub(crate) fn linear_fit_rows<const P: usize>(
         middle += DMatrix::from_fn(P, P, |a, b| acc[a][b]) * noise.c;
     }
     let covariance = &inv * middle * &inv * s2;
-    let fit = NonlinearFit {
-        parameters: beta.to_vec(),
-        standard_errors: (0..P).map(|j| plain[(j, j)].max(0.0).sqrt()).collect(),
-        covariance: (0..P)
-            .map(|i| (0..P).map(|j| plain[(i, j)]).collect())
-            .collect(),
-        residual_sum_of_squares: rss,
-        residual_standard_deviation: s2.sqrt(),
-        degrees_of_freedom: dof,
-        observations: m,
-        iterations: 0,
-        residual_evaluations: 1,
-        jacobian_evaluations: 1,
-        // At the least-squares solution the residuals are orthogonal to the columns.
-        termination: Termination::Gtol,
-        condition_number,
-    };
-    Ok(Solved {
-        fit,
+    Ok(closed_form(
+        beta.to_vec(),
+        &normal,
+        &plain,
         covariance,
+        rss,
+        m,
         noise,
-        dof: (noise.effective_points(m) - P as f64).max(1.0),
-    })
+    ))
 }
 
 /// Checks that `value` is positive and finite.
@@ -1007,17 +1012,13 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
                 evaluations,
             });
         }
-        let det = a[0] * a[2] - a[1] * a[1];
-        if !(det > 0.0) {
-            return Err(undefined());
-        }
-        let inv = [a[2] / det, -a[1] / det, a[0] / det];
-        let dof = m - 2;
-        let s2 = rss / dof as f64;
-        let cov = [[s2 * inv[0], s2 * inv[1]], [s2 * inv[1], s2 * inv[2]]];
-        // The 2-norm condition number of the column-equilibrated Jacobian, from the scaled
-        // normal matrix [[1, c], [c, 1]] (eigenvalues 1 ± |c|).
-        let c = (a[1] / (a[0] * a[2]).sqrt()).abs();
+        let TwoByTwo {
+            inv,
+            dof,
+            s2,
+            cov,
+            c,
+        } = TwoByTwo::of(a, rss, m).ok_or_else(undefined)?;
         let fit = NonlinearFit {
             parameters: p.to_vec(),
             standard_errors: vec![cov[0][0].sqrt(), cov[1][1].sqrt()],
@@ -1057,6 +1058,43 @@ impl<G: Fn(f64, f64) -> (f64, f64)> ScaledByNc<'_, G> {
             covariance,
             noise,
             dof: (noise.effective_points(m) - 2.0).max(1.0),
+        })
+    }
+}
+
+/// The plain statistics of a two-parameter fit from its packed JᵀJ `a = [a₀₀, a₀₁, a₁₁]`, the
+/// residual sum of squares and the number of points.
+pub(crate) struct TwoByTwo {
+    /// (JᵀJ)⁻¹, packed as `a`.
+    pub inv: [f64; 3],
+    /// Degrees of freedom, m − 2.
+    pub dof: usize,
+    /// The residual variance.
+    pub s2: f64,
+    /// The plain covariance s²·(JᵀJ)⁻¹.
+    pub cov: [[f64; 2]; 2],
+    /// |correlation| of the columns: the 2-norm condition number of the column-equilibrated
+    /// Jacobian is √((1 + c)/(1 − c)), the scaled normal matrix [[1, c], [c, 1]] having the
+    /// eigenvalues 1 ± c.
+    pub c: f64,
+}
+
+impl TwoByTwo {
+    /// `None` when JᵀJ is not positive definite.
+    pub(crate) fn of(a: [f64; 3], rss: f64, m: usize) -> Option<TwoByTwo> {
+        let det = a[0] * a[2] - a[1] * a[1];
+        if !(det > 0.0) {
+            return None;
+        }
+        let inv = [a[2] / det, -a[1] / det, a[0] / det];
+        let dof = m - 2;
+        let s2 = rss / dof as f64;
+        Some(TwoByTwo {
+            inv,
+            dof,
+            s2,
+            cov: [[s2 * inv[0], s2 * inv[1]], [s2 * inv[1], s2 * inv[2]]],
+            c: (a[1] / (a[0] * a[2]).sqrt()).abs(),
         })
     }
 }

@@ -14,7 +14,7 @@ use std::cell::{Cell, RefCell};
 use nalgebra::{DMatrix, DVector};
 
 use crate::FitError;
-use crate::models::common::{LagSums, Solved, two_parameter_sandwich};
+use crate::models::common::{LagSums, Solved, TwoByTwo, two_parameter_sandwich};
 use crate::regression::NoiseModel;
 use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, minimise};
 
@@ -282,17 +282,13 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
         let (rss, lags) = self.residual_pass(d, k);
         // JᵀJ of the two-parameter problem, rows (−K·g′, −g).
         let a = [k * k * sums.dd, k * sums.gd, sums.gg];
-        let det = a[0] * a[2] - a[1] * a[1];
-        if !(det > 0.0) {
-            return Err(undefined());
-        }
-        let inv = [a[2] / det, -a[1] / det, a[0] / det];
-        let dof = m - 2;
-        let s2 = rss / dof as f64;
-        let cov = [[s2 * inv[0], s2 * inv[1]], [s2 * inv[1], s2 * inv[2]]];
-        // The 2-norm condition number of the column-equilibrated Jacobian, from the scaled
-        // normal matrix [[1, c], [c, 1]] (eigenvalues 1 ± |c|).
-        let c = (a[1] / (a[0] * a[2]).sqrt()).abs();
+        let TwoByTwo {
+            inv,
+            dof,
+            s2,
+            cov,
+            c,
+        } = TwoByTwo::of(a, rss, m).ok_or_else(undefined)?;
         let fit = NonlinearFit {
             parameters: vec![d, k],
             standard_errors: vec![cov[0][0].sqrt(), cov[1][1].sqrt()],
