@@ -6,7 +6,6 @@ use std::borrow::Cow;
 use diffusor_trace::{Segment, Trace};
 use nalgebra::DVector;
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, StudentsT};
 
 use crate::FitError;
 use crate::cell::{Cell, Geometry};
@@ -411,12 +410,8 @@ pub enum AnalysisError {
     Fit(#[from] FitError),
 }
 
-fn t_quantile(dof: f64) -> f64 {
-    StudentsT::new(0.0, 1.0, dof.max(1.0)).map_or(1.96, |d| d.inverse_cdf(0.975))
-}
-
 fn estimate(value: f64, se: f64, dof: f64) -> Estimate {
-    let t = t_quantile(dof);
+    let t = crate::special::t975(dof);
     Estimate {
         value,
         std_error: se,
@@ -951,7 +946,7 @@ pub fn analyze_data(
     let mut nac_mol_m = None;
     let mut area_m2 = None;
     let mut result_budget = None;
-    let t = t_quantile(dof);
+    let t = crate::special::t975(dof);
     let mode;
     if let Some(d_known) = known_d {
         mode = "inverse";

@@ -38,7 +38,7 @@
 //! ```
 
 use serde::Serialize;
-use statrs::distribution::{ChiSquared, ContinuousCDF, StudentsT};
+use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 use crate::error::FitError;
 
@@ -311,7 +311,7 @@ pub fn grubbs_critical_value(n: usize, alpha: f64) -> Result<f64, FitError> {
     let nf = n as f64;
     // The lower-tail quantile, negated, keeps full precision for the small
     // tail areas used here instead of rounding through 1 − α/(2n).
-    let t = -students_t(nf - 2.0)?.inverse_cdf(alpha / (2.0 * nf));
+    let t = -students_t_quantile(alpha / (2.0 * nf), nf - 2.0)?;
     let t2 = t * t;
     Ok((nf - 1.0) / nf.sqrt() * (t2 / (nf - 2.0 + t2)).sqrt())
 }
@@ -342,16 +342,18 @@ fn mean_and_sd(values: &[f64]) -> Result<(f64, f64), FitError> {
     Ok((mean, sd))
 }
 
-fn students_t(dof: f64) -> Result<StudentsT, FitError> {
-    StudentsT::new(0.0, 1.0, dof).map_err(|e| FitError::Distribution {
-        message: e.to_string(),
+/// Student's t quantile `t_p` with `dof` degrees of freedom, through
+/// [`crate::special::students_t_quantile`].
+fn students_t_quantile(p: f64, dof: f64) -> Result<f64, FitError> {
+    crate::special::students_t_quantile(p, dof).ok_or_else(|| FitError::Distribution {
+        message: format!("no Student's t quantile at p = {p} with {dof} degrees of freedom"),
     })
 }
 
 /// Student's t interval of the mean (Student, Biometrika 6 (1908) 1).
 fn mean_interval(mean: f64, sem: f64, dof: usize) -> Result<MeanInterval, FitError> {
     let tail = (1.0 - CONFIDENCE_LEVEL) / 2.0;
-    let t_critical = -students_t(dof as f64)?.inverse_cdf(tail);
+    let t_critical = -students_t_quantile(tail, dof as f64)?;
     let half_width = t_critical * sem;
     Ok(MeanInterval {
         level: CONFIDENCE_LEVEL,
@@ -604,14 +606,14 @@ mod tests {
         // t distribution is Cauchy, t_p = tan(π(p − ½)); for 2 dof
         // t_p = (2p − 1)/√(2p(1 − p)).
         let p: f64 = 0.975;
-        let t1 = -students_t(1.0).unwrap().inverse_cdf(1.0 - p);
+        let t1 = -students_t_quantile(1.0 - p, 1.0).unwrap();
         assert_close(
             t1,
             (std::f64::consts::PI * (p - 0.5)).tan(),
             1e-9,
             "t(0.975, 1)",
         );
-        let t2 = -students_t(2.0).unwrap().inverse_cdf(1.0 - p);
+        let t2 = -students_t_quantile(1.0 - p, 2.0).unwrap();
         assert_close(
             t2,
             (2.0 * p - 1.0) / (2.0 * p * (1.0 - p)).sqrt(),

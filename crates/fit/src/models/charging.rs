@@ -110,7 +110,7 @@ pub fn fit_cottrell_charging(
         DVector::from_vec(vec![s0, b0, t00, a0.ln(), tau0.ln()]),
     )?;
     let dof = solved.dof;
-    let tq = crate::models::common::t_quantile(dof);
+    let tq = crate::special::t975(dof);
     let log_estimate = |ln_v: f64, se: f64| Estimate {
         value: ln_v.exp(),
         std_error: ln_v.exp() * se,

@@ -8,7 +8,6 @@
 
 use nalgebra::{DMatrix, DVector};
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, StudentsT};
 
 use crate::FitError;
 use crate::planar::{AnalysisError, Estimate, Param};
@@ -224,14 +223,9 @@ pub struct ModelFit {
     pub warnings: Vec<ModelWarning>,
 }
 
-/// The 97.5 % quantile of Student's t with `dof` degrees of freedom (at least 1).
-pub(crate) fn t_quantile(dof: f64) -> f64 {
-    StudentsT::new(0.0, 1.0, dof.max(1.0)).map_or(1.96, |d| d.inverse_cdf(0.975))
-}
-
 /// A value with its standard error and 95 % interval from Student's t.
 pub(crate) fn estimate(value: f64, se: f64, dof: f64) -> Estimate {
-    let t = t_quantile(dof);
+    let t = crate::special::t975(dof);
     Estimate {
         value,
         std_error: se,
