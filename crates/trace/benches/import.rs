@@ -1,4 +1,4 @@
-//! Import of a generated 10-million-row, two-column current–time file (about 290 MB), with the
+//! Import of a generated 10-million-row, two-column current–time file (about 230 MB), with the
 //! peer a user would otherwise reach for (`pandas.read_csv`) timed on the same file in the same
 //! run, and the peak memory of one import measured in a child process.
 //!
@@ -128,7 +128,7 @@ fn main() {
         .sample_size(10)
         .measurement_time(Duration::from_secs(12))
         .configure_from_args();
-    c.bench_function("import 10M rows (290 MB)", |b| {
+    c.bench_function("import 10M rows (230 MB)", |b| {
         b.iter(|| import_path(&path, &ImportOptions::default()).expect("import"));
     });
     c.final_summary();
