@@ -1152,7 +1152,7 @@ pub fn analyze_data(
     let variation = move |i: usize, j: usize| {
         (s_fit * (1.0 / (w_time[i] - t0_fit).sqrt() - 1.0 / (w_time[j] - t0_fit).sqrt())).abs()
     };
-    let switches = range_switches(w_time, w_current, &resid, &variation);
+    let switches = range_switches(w_time, w_current, resid, variation);
     if !switches.is_empty() {
         warnings.push(warn(
             WarningCode::RangeSwitching,

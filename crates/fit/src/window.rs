@@ -707,19 +707,27 @@ fn plateau_predict(
 pub(crate) fn range_switches(
     time_s: &[f64],
     current_a: &[f64],
-    residual: &(dyn Fn(usize) -> f64 + Sync),
-    variation: &(dyn Fn(usize, usize) -> f64 + Sync),
+    residual: impl Fn(usize) -> f64 + Sync,
+    variation: impl Fn(usize, usize) -> f64 + Sync,
 ) -> Vec<f64> {
     const BLOCK: usize = 4096;
     let n = time_s.len();
     if n < 20 {
         return Vec::new();
     }
+    // The sampled differences, split across the cores: each is a scattered read of the long
+    // columns and two square roots.
     let stride = (n / 200_000).max(1);
-    let mut d: Vec<f64> = (1..n)
-        .step_by(stride)
-        .map(|i| (residual(i) - residual(i - 1)).abs())
-        .collect();
+    let samples = (n - 1).div_ceil(stride);
+    let mut d: Vec<f64> = crate::regression::chunked_ranges(samples, |a, b| {
+        (a..b)
+            .map(|k| {
+                let i = 1 + k * stride;
+                (residual(i) - residual(i - 1)).abs()
+            })
+            .collect::<Vec<f64>>()
+    })
+    .concat();
     let mid = d.len() / 2;
     let mad = *d.select_nth_unstable_by(mid, f64::total_cmp).1;
     let sigma = 1.4826 * mad;
@@ -781,8 +789,8 @@ pub(crate) fn range_switches(
                     && jump.abs() > 12.0 * local_sigma(i)
                     && (current_a[i] - current_a[i - 1]).abs() > 3.0 * local_quantum(i)
                 {
-                    let before = (i - 5..i).map(residual).sum::<f64>() / 5.0;
-                    let after = (i..i + 5).map(residual).sum::<f64>() / 5.0;
+                    let before = (i - 5..i).map(&residual).sum::<f64>() / 5.0;
+                    let after = (i..i + 5).map(&residual).sum::<f64>() / 5.0;
                     if (after - before).abs() > 0.6 * jump.abs() && (after - before) * jump > 0.0 {
                         out.push(time_s[i]);
                         i += 5;
