@@ -573,34 +573,36 @@ pub fn fit_line(
     let diag = chunked(n, |a, b| {
         let mut d = ResidualSums::default();
         let mut prev = if a > 0 { resid(a - 1) } else { f64::NAN };
-        // The last LAGS residuals, newest first: recent[k − 1] is residual i − k.
-        let mut recent = [0.0; LAGS];
-        for (k, slot) in recent.iter_mut().enumerate().take(a.min(LAGS)) {
-            *slot = resid(a - 1 - k);
-        }
         let lag_end = b.min(a + LAG_POINTS);
-        let end = if full { b } else { lag_end };
-        for i in a..end {
-            let r = resid(i);
-            if i < lag_end {
-                // Before the first LAGS residuals the missing ones are zero and add nothing.
-                for k in 0..LAGS {
-                    d.lags[k] += r * recent[k];
-                }
-                d.lag_rr += r * r;
-                recent.copy_within(0..LAGS - 1, 1);
-                recent[0] = r;
-                if !prev.is_nan() {
-                    let q = prev;
-                    d.lag += r * q;
-                    d.diff += (r - q) * (r - q);
-                    d.changes += u64::from(r != 0.0 && q != 0.0 && (r > 0.0) != (q > 0.0));
-                }
-                d.pos += u64::from(r > 0.0);
-                d.neg += u64::from(r < 0.0);
-                prev = r;
+        // The residuals the lags need, computed first in one loop the compiler packs: rs[j] is
+        // residual a − LAGS + j, zero before the first residual (missing ones add nothing).
+        let known = a.min(LAGS);
+        let mut rs = vec![0.0; LAGS + (lag_end - a)];
+        for (j, r) in rs.iter_mut().enumerate().skip(LAGS - known) {
+            *r = resid(a + j - LAGS);
+        }
+        for i in a..lag_end {
+            let j = LAGS + (i - a);
+            let r = rs[j];
+            // recent[k] = residual i − 1 − k.
+            let recent = &rs[j - LAGS..j];
+            for k in 0..LAGS {
+                d.lags[k] += r * recent[LAGS - 1 - k];
             }
-            if full {
+            d.lag_rr += r * r;
+            if !prev.is_nan() {
+                let q = prev;
+                d.lag += r * q;
+                d.diff += (r - q) * (r - q);
+                d.changes += u64::from(r != 0.0 && q != 0.0 && (r > 0.0) != (q > 0.0));
+            }
+            d.pos += u64::from(r > 0.0);
+            d.neg += u64::from(r < 0.0);
+            prev = r;
+        }
+        if full {
+            for i in a..b {
+                let r = resid(i);
                 d.rr += r * r;
                 d.wrr += w_at(i) * r * r;
             }

@@ -764,9 +764,19 @@ pub(crate) fn range_switches(
         let end = b.min(n - 5);
         let mut i = start;
         while i < end {
-            let block_end = (i + BLOCK).min(end);
             // Any residual jump inside [i, block_end) is at most |ΔI| plus the model's change.
-            let slack = variation(i - 1, block_end - 1);
+            // At short times the model changes by more than the limit over a whole block, which
+            // would leave every point to be checked one by one; halving the block until it does
+            // not (down to 64 points) keeps the screen working there.
+            let mut len = BLOCK;
+            let (block_end, slack) = loop {
+                let block_end = (i + len).min(end);
+                let slack = variation(i - 1, block_end - 1);
+                if slack < limit || len <= 64 {
+                    break (block_end, slack);
+                }
+                len /= 2;
+            };
             let screen = limit - slack;
             // Most blocks hold no current step above the screen at all; a branch-free look at
             // the whole block says so at the speed of reading the current.
