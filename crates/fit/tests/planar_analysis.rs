@@ -417,6 +417,26 @@ fn range_switch_inside_the_window_is_flagged() {
 }
 
 #[test]
+fn range_switch_at_fast_sampling_where_the_screen_works_on_short_blocks() {
+    // The same stand-in at 10 µs sampling, the step at 1 s: there the model alone changes by
+    // more than the jump limit over the screen's full 4096-sample block, so the screen must
+    // halve its blocks and still let the jump through to the point-by-point check.
+    let time = grid(1e-5, 300_000);
+    let current = noisy(&time, 2e-9, 21, |t| {
+        cottrell(t) + if t > 1.0 { 5e-8 } else { 0.0 }
+    });
+    let mut opts = options();
+    opts.window.hi = BoundChoice::At(2.9);
+    let r = analyze_data(&time, &current, &cell(), &opts, "none".into(), Vec::new()).expect("ok");
+    assert!(
+        r.range_switches_s.iter().any(|t| (t - 1.0).abs() < 1e-3),
+        "{:?}",
+        r.range_switches_s
+    );
+    assert_eq!(r.range_switches_s.len(), 1, "{:?}", r.range_switches_s);
+}
+
+#[test]
 fn too_few_points_is_a_clear_error() {
     let time = grid(1e-3, 100);
     let current = noisy(&time, 5e-9, 15, cottrell);
