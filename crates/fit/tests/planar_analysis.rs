@@ -392,16 +392,27 @@ fn unusual_d_and_missing_inputs_are_warned() {
     );
 }
 
-#[test]
-fn range_switch_inside_the_window_is_flagged() {
-    // Stand-in for a current-range switch (no law): a 50 nA offset from 2 s on.
-    let time = grid(1e-3, 8000);
-    let current = noisy(&time, 2e-9, 14, |t| {
-        cottrell(t) + if t > 2.0 { 5e-8 } else { 0.0 }
+/// Stand-in for a current-range switch (no law): a 50 nA offset from `at` on, on a grid of
+/// `n` samples `dt` apart, the window's end held at `hi`; returns the analysis.
+fn with_range_switch(
+    dt: f64,
+    n: usize,
+    seed: u64,
+    at: f64,
+    hi: f64,
+) -> diffusor_fit::planar::PlanarResult {
+    let time = grid(dt, n);
+    let current = noisy(&time, 2e-9, seed, |t| {
+        cottrell(t) + if t > at { 5e-8 } else { 0.0 }
     });
     let mut opts = options();
-    opts.window.hi = BoundChoice::At(7.9);
-    let r = analyze_data(&time, &current, &cell(), &opts, "none".into(), Vec::new()).expect("ok");
+    opts.window.hi = BoundChoice::At(hi);
+    analyze_data(&time, &current, &cell(), &opts, "none".into(), Vec::new()).expect("ok")
+}
+
+#[test]
+fn range_switch_inside_the_window_is_flagged() {
+    let r = with_range_switch(1e-3, 8000, 14, 2.0, 7.9);
     assert!(
         r.warnings
             .iter()
@@ -418,16 +429,10 @@ fn range_switch_inside_the_window_is_flagged() {
 
 #[test]
 fn range_switch_at_fast_sampling_where_the_screen_works_on_short_blocks() {
-    // The same stand-in at 10 µs sampling, the step at 1 s: there the model alone changes by
-    // more than the jump limit over the screen's full 4096-sample block, so the screen must
-    // halve its blocks and still let the jump through to the point-by-point check.
-    let time = grid(1e-5, 300_000);
-    let current = noisy(&time, 2e-9, 21, |t| {
-        cottrell(t) + if t > 1.0 { 5e-8 } else { 0.0 }
-    });
-    let mut opts = options();
-    opts.window.hi = BoundChoice::At(2.9);
-    let r = analyze_data(&time, &current, &cell(), &opts, "none".into(), Vec::new()).expect("ok");
+    // At 10 µs sampling, the step at 1 s: there the model alone changes by more than the jump
+    // limit over the screen's full 4096-sample block, so the screen must halve its blocks and
+    // still let the jump through to the point-by-point check.
+    let r = with_range_switch(1e-5, 300_000, 21, 1.0, 2.9);
     assert!(
         r.range_switches_s.iter().any(|t| (t - 1.0).abs() < 1e-3),
         "{:?}",
