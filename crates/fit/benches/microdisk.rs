@@ -8,9 +8,9 @@
 //! 20 % off the truth instead, further than our grid's start, which took it more iterations; it
 //! is still timed and printed. Run with `cargo bench -p diffusor-fit --bench microdisk`.
 
-use std::io::Write;
-use std::process::{Command, Stdio};
 use std::time::Duration;
+
+mod support;
 
 use criterion::Criterion;
 use diffusor_fit::models::common::{Known, Transient};
@@ -99,51 +99,23 @@ print("given", secs, p[0])
 "#;
 
 fn peer(time: &[f64], current: &[f64]) {
-    let child = Command::new("python3")
-        .arg("-c")
-        .arg(PEER)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn();
-    let mut child = match child {
-        Ok(c) => c,
-        Err(e) => {
-            println!("peer: python3 not available ({e})");
+    let stdout = match support::run_python_peer(PEER, &[time, current]) {
+        Ok(stdout) => stdout,
+        Err(why) => {
+            println!("peer: {why}");
             return;
         }
     };
-    let bytes: Vec<u8> = time
-        .iter()
-        .chain(current)
-        .flat_map(|v| v.to_le_bytes())
-        .collect();
-    if let Some(mut stdin) = child.stdin.take() {
-        // A peer that stops reading early (numpy missing) closes the pipe; its stderr says why.
-        let _ = stdin.write_all(&bytes);
-    }
-    match child.wait_with_output() {
-        Ok(out) if out.status.success() => {
-            for line in String::from_utf8_lossy(&out.stdout).lines() {
-                match line.split_whitespace().collect::<Vec<_>>().as_slice() {
-                    ["same", secs, d, d0] => println!(
-                        "peer (scipy.optimize.curve_fit from the start ours finds, found the same way in numpy), best of 5: {secs} s (D = {d} m²/s, started at {d0} m²/s)"
-                    ),
-                    ["given", secs, d] => println!(
-                        "peer (scipy.optimize.curve_fit given D and n·C 20 % off the truth), best of 5: {secs} s (D = {d} m²/s)"
-                    ),
-                    _ => println!("peer: {line}"),
-                }
-            }
+    for line in stdout.lines() {
+        match line.split_whitespace().collect::<Vec<_>>().as_slice() {
+            ["same", secs, d, d0] => println!(
+                "peer (scipy.optimize.curve_fit from the start ours finds, found the same way in numpy), best of 5: {secs} s (D = {d} m²/s, started at {d0} m²/s)"
+            ),
+            ["given", secs, d] => println!(
+                "peer (scipy.optimize.curve_fit given D and n·C 20 % off the truth), best of 5: {secs} s (D = {d} m²/s)"
+            ),
+            _ => println!("peer: {line}"),
         }
-        Ok(out) => println!(
-            "peer: not measured ({}); `pip install numpy scipy` to measure it",
-            String::from_utf8_lossy(&out.stderr)
-                .lines()
-                .last()
-                .unwrap_or("")
-        ),
-        Err(e) => println!("peer: not measured ({e})"),
     }
 }
 

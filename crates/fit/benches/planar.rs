@@ -22,9 +22,9 @@
 //!
 //! Run with `cargo bench -p diffusor-fit --bench planar`.
 
-use std::io::Write;
-use std::process::{Command, Stdio};
 use std::time::Duration;
+
+mod support;
 
 use criterion::Criterion;
 use diffusor_fit::cell::{Cell, Measured};
@@ -704,43 +704,13 @@ impl Outcome {
 }
 
 fn peer(current: &[f64], ours: &Outcome) {
-    let child = Command::new("python3")
-        .arg("-c")
-        .arg(PEER)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn();
-    let mut child = match child {
-        Ok(c) => c,
-        Err(e) => {
-            println!("peer: python3 not available ({e})");
+    let stdout = match support::run_python_peer(PEER, &[current]) {
+        Ok(stdout) => stdout,
+        Err(why) => {
+            println!("peer: {why}");
             return;
         }
     };
-    let bytes: Vec<u8> = current.iter().flat_map(|v| v.to_le_bytes()).collect();
-    if let Some(mut stdin) = child.stdin.take() {
-        // A peer that stops reading early (numpy missing) closes the pipe; its stderr says why.
-        let _ = stdin.write_all(&bytes);
-    }
-    let out = match child.wait_with_output() {
-        Ok(out) => out,
-        Err(e) => {
-            println!("peer: not measured ({e})");
-            return;
-        }
-    };
-    if !out.status.success() {
-        println!(
-            "peer: not measured ({}); `pip install numpy scipy` to measure it",
-            String::from_utf8_lossy(&out.stderr)
-                .lines()
-                .last()
-                .unwrap_or("")
-        );
-        return;
-    }
-    let stdout = String::from_utf8_lossy(&out.stdout);
     for line in stdout.lines() {
         let fields: Vec<&str> = line.split_whitespace().collect();
         match fields.as_slice() {
