@@ -602,7 +602,11 @@ pub fn fit_line(
         }
         if full {
             for i in a..b {
-                let r = resid(i);
+                let r = if i < lag_end {
+                    rs[LAGS + (i - a)]
+                } else {
+                    resid(i)
+                };
                 d.rr += r * r;
                 d.wrr += w_at(i) * r * r;
             }
@@ -743,11 +747,11 @@ pub fn fit_line(
 /// The regressor, u and e are computed a block of rows at a time into buffers, loops the
 /// compiler packs, and each sum then runs over them in a loop of its own in four interleaved
 /// lanes, so that no addition waits for the one before it (one loop updating all five sums
-/// compiled to half-scalar code: fit_line on 10 M points took 17.2 ms that way, 15.3 ms this
-/// way, measured on the project's 2-core machine, with the same sums bit for bit). Only Σu, Σv, Σu², Σue and Σe² are accumulated: Σuv = Σue + g·Σu², Σv² and Σe
-/// follow in the same way without losing what matters (the residual sum of squares is taken
-/// from Σe² and Σue, which keep their digits). The regressor starts from the single-precision
-/// 1/√(t − t0), several times cheaper than the double-precision square root and division,
+/// compiled to half-scalar code: `fit_line` on 10 M points took 17.2 ms that way and 15.3 ms
+/// this way on the project's 2-core machine, with the same sums bit for bit). Only Σu, Σv, Σu²,
+/// Σue and Σe² are accumulated: Σuv = Σue + g·Σu², Σv² and Σe follow in the same way without
+/// losing what matters (the residual sum of squares is taken from Σe² and Σue, which keep their
+/// digits). The regressor starts from the single-precision 1/√(t − t0), several times cheaper than the double-precision square root and division,
 /// and one step of the series y·(1 − ε)^-½ = y·(1 + ε/2 + 3ε²/8 + …), ε = 1 − (t − t0)·y²
 /// (|ε| < 10⁻⁶), brings it to within a few units in the last place of the double; a block
 /// with a t − t0 outside 10⁻³⁰…10³⁰ (beyond single precision, or not a valid time at all) is
@@ -791,11 +795,11 @@ fn plain_moments(t: &[f64], y: &[f64], t0: f64, kx: f64, ky: f64, guess: f64) ->
             *u = x - kx;
             *e = (y - ky) - guess * *u;
         }
-        lane_sums(&mut sums[0], u, |u| u);
-        lane_sums(&mut sums[1], yb, |y| y - ky);
-        lane_sums(&mut sums[2], u, |u| u * u);
-        lane_sums_2(&mut sums[3], u, e, |u, e| u * e);
-        lane_sums(&mut sums[4], e, |e| e * e);
+        lane_sums(&mut sums[0], u, u, |u, _| u);
+        lane_sums(&mut sums[1], yb, yb, |y, _| y - ky);
+        lane_sums(&mut sums[2], u, u, |u, _| u * u);
+        lane_sums(&mut sums[3], u, e, |u, e| u * e);
+        lane_sums(&mut sums[4], e, e, |e, _| e * e);
     }
     let [su, sv, suu, sue, see] = sums.map(|lanes| (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]));
     let suv = sue + guess * suu;
@@ -808,23 +812,9 @@ fn plain_moments(t: &[f64], y: &[f64], t0: f64, kx: f64, ky: f64, guess: f64) ->
     )
 }
 
-/// `acc[l] += f(a[j])` for the rows j ≡ l (mod 4), in order.
-#[inline]
-fn lane_sums(acc: &mut [f64; 4], a: &[f64], f: impl Fn(f64) -> f64) {
-    let (q, rest) = a.as_chunks::<4>();
-    for q in q {
-        for l in 0..4 {
-            acc[l] += f(q[l]);
-        }
-    }
-    for (l, &v) in rest.iter().enumerate() {
-        acc[l] += f(v);
-    }
-}
-
 /// `acc[l] += f(a[j], b[j])` for the rows j ≡ l (mod 4), in order.
 #[inline]
-fn lane_sums_2(acc: &mut [f64; 4], a: &[f64], b: &[f64], f: impl Fn(f64, f64) -> f64) {
+fn lane_sums(acc: &mut [f64; 4], a: &[f64], b: &[f64], f: impl Fn(f64, f64) -> f64) {
     let (qa, ra) = a.as_chunks::<4>();
     let (qb, rb) = b.as_chunks::<4>();
     for (qa, qb) in qa.iter().zip(qb) {
