@@ -62,6 +62,7 @@ pub mod cell;
 pub mod constants;
 pub mod error;
 pub mod geometry;
+mod lanes;
 pub mod linalg;
 pub mod models;
 pub mod planar;

@@ -20,6 +20,7 @@
 use serde::Serialize;
 
 use crate::FitError;
+use crate::lanes::lane_sums;
 
 /// How time is turned into the regressor.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -810,21 +811,6 @@ fn plain_moments(t: &[f64], y: &[f64], t0: f64, kx: f64, ky: f64, guess: f64) ->
         [count, su, sv, suu, suv, svv, count, su, suu, se, sue, see],
         ok,
     )
-}
-
-/// `acc[l] += f(a[j], b[j])` for the rows j ≡ l (mod 4), in order.
-#[inline]
-fn lane_sums(acc: &mut [f64; 4], a: &[f64], b: &[f64], f: impl Fn(f64, f64) -> f64) {
-    let (qa, ra) = a.as_chunks::<4>();
-    let (qb, rb) = b.as_chunks::<4>();
-    for (qa, qb) in qa.iter().zip(qb) {
-        for l in 0..4 {
-            acc[l] += f(qa[l], qb[l]);
-        }
-    }
-    for (l, (&x, &y)) in ra.iter().zip(rb).enumerate() {
-        acc[l] += f(x, y);
-    }
 }
 
 #[derive(Debug, Default, Clone, Copy)]

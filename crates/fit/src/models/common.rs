@@ -249,7 +249,7 @@ pub(crate) fn param(
 }
 
 /// Lags of the residual autocorrelation used for the noise model (as in the planar analysis).
-const LAGS: usize = 10;
+pub(crate) const LAGS: usize = 10;
 
 /// Autocorrelation ρ(1..=LAGS) of a residual series.
 pub(crate) fn autocorrelation(r: &[f64]) -> Vec<f64> {
@@ -274,23 +274,27 @@ pub(crate) fn autocorrelation(r: &[f64]) -> Vec<f64> {
 /// the lagged products are summed raw as the residuals pass (the last `LAGS` kept at hand),
 /// then centred with the mean, using the first and last `LAGS` residuals for the ends of each
 /// lag's range: `Σ(rᵢ − μ)(rᵢ₊ₖ − μ) = Σrᵢrᵢ₊ₖ − μ·(Σ_{i<n−k} rᵢ + Σ_{i≥k} rᵢ) + (n − k)·μ²`.
-pub(crate) struct LagSums {
+///
+/// `K` is how many lags are summed, `LAGS` by default. With `K = 1` the sums are those of the
+/// first lag of `LagSums<LAGS>` term for term and in the same order, so its ρ(1) is the same
+/// number: [`noise_by_lags`] uses it to decide white noise without the other nine lags.
+pub(crate) struct LagSums<const K: usize = LAGS> {
     n: usize,
     sum: f64,
     sum_sq: f64,
-    lagged: [f64; LAGS],
+    lagged: [f64; K],
     first: [f64; LAGS],
     /// `recent[j]` is residual `n − 1 − j` (zero before the series starts).
     recent: [f64; LAGS],
 }
 
-impl LagSums {
+impl<const K: usize> LagSums<K> {
     pub fn new() -> Self {
         Self {
             n: 0,
             sum: 0.0,
             sum_sq: 0.0,
-            lagged: [0.0; LAGS],
+            lagged: [0.0; K],
             first: [0.0; LAGS],
             recent: [0.0; LAGS],
         }
@@ -299,17 +303,18 @@ impl LagSums {
     /// Adds the next residuals in order, the products inside the block summed four at a time.
     pub fn extend(&mut self, r: &[f64]) {
         let len = r.len();
-        for k in 1..=LAGS {
+        for k in 1..=K {
             // Products with the residuals before the block: r[i] pairs with residual
             // n + i − k, which is recent[k − 1 − i].
             for i in 0..k.min(len) {
                 self.lagged[k - 1] += self.recent[k - 1 - i] * r[i];
             }
         }
-        // Products inside the block: every lag in one sweep, r[i] against r[i − k], four
-        // points at a time (independent running sums per lag and lane).
+        // Products inside the block from its point LAGS on (whatever K is): every lag in one
+        // sweep, r[i] against r[i − k], four points at a time (independent running sums per lag
+        // and lane).
         if len > LAGS {
-            let mut acc = [[0.0f64; 4]; LAGS];
+            let mut acc = [[0.0f64; 4]; K];
             let body = &r[LAGS..];
             let chunks = body.len() / 4;
             for c in 0..chunks {
@@ -331,7 +336,7 @@ impl LagSums {
         }
         // The pairs inside the block whose later member lies in its first LAGS points.
         for i in 1..LAGS.min(len) {
-            for k in 1..=i {
+            for k in 1..=i.min(K) {
                 self.lagged[k - 1] += r[i] * r[i - k];
             }
         }
@@ -360,11 +365,11 @@ impl LagSums {
 
     /// Appends the sums of the residuals that follow those of `self` (both at least `LAGS`
     /// long; `None` otherwise), adding the lagged products that straddle the join.
-    pub fn join(mut self, next: &LagSums) -> Option<LagSums> {
+    pub fn join(mut self, next: &LagSums<K>) -> Option<LagSums<K>> {
         if self.n < LAGS || next.n < LAGS {
             return None;
         }
-        for k in 1..=LAGS {
+        for k in 1..=K {
             // Pairs (n₁ − k + j, n₁ + j) for j < k; residual n₁ − k + j is recent[k − 1 − j].
             for j in 0..k {
                 self.lagged[k - 1] += self.recent[k - 1 - j] * next.first[j];
@@ -378,12 +383,12 @@ impl LagSums {
         Some(self)
     }
 
-    /// ρ(1..=LAGS), as [`autocorrelation`] gives it.
+    /// ρ(1..=K), as [`autocorrelation`] gives it.
     pub fn finish(&self) -> Vec<f64> {
         let n = self.n;
         let mean = self.sum / n.max(1) as f64;
         let c0 = (self.sum_sq - n as f64 * mean * mean).max(0.0);
-        (1..=LAGS.min(n.saturating_sub(1)))
+        (1..=K.min(n.saturating_sub(1)))
             .map(|k| {
                 if c0 > 0.0 {
                     let head: f64 = self.first[..k].iter().sum();
@@ -397,6 +402,26 @@ impl LagSums {
             })
             .collect()
     }
+}
+
+/// The noise model of `m` residuals that `pass` streams in order into the lag sums it is given:
+/// first the first lag only, and the other lags in a second pass only when ρ(1) exceeds the
+/// significance limit of [`NoiseModel::from_autocorrelation`] (below it the model is white
+/// whatever the later lags are, so the result is the same as from one pass of every lag).
+/// Returns the residuals' sum of squares (from the first pass) and the model.
+pub(crate) fn noise_by_lags(
+    m: usize,
+    first: impl FnOnce() -> LagSums<1>,
+    all: impl FnOnce() -> LagSums,
+) -> (f64, NoiseModel) {
+    let lag1 = first();
+    let rho1 = lag1.finish();
+    let noise = if NoiseModel::from_autocorrelation(&rho1, m) == NoiseModel::WHITE {
+        NoiseModel::WHITE
+    } else {
+        NoiseModel::from_autocorrelation(&all().finish(), m)
+    };
+    (lag1.sum_of_squares(), noise)
 }
 
 /// `Σ aᵢ` in four independent running sums.
@@ -709,23 +734,36 @@ pub(crate) fn linear_fit_rows<const P: usize>(
         beta[j] = slopes[j - 1];
         beta[0] -= slopes[j - 1] * mean[j];
     }
-    let mut lags = LagSums::new();
-    let mut buf = [0.0f64; 256];
-    for start in (0..m).step_by(buf.len()) {
-        let block = &mut buf[..(m - start).min(256)];
-        for (j, r) in block.iter_mut().enumerate() {
-            let x = row(start + j);
-            *r = y[start + j] - (0..P).map(|c| beta[c] * x[c]).sum::<f64>();
+    // The residuals streamed into lag sums (the lags past the first only when the first shows
+    // correlation, in a second pass).
+    fn residual_lags<const K: usize, const P: usize>(
+        y: &[f64],
+        row: impl Fn(usize) -> [f64; P],
+        beta: &[f64; P],
+    ) -> LagSums<K> {
+        let m = y.len();
+        let mut lags = LagSums::new();
+        let mut buf = [0.0f64; 256];
+        for start in (0..m).step_by(buf.len()) {
+            let block = &mut buf[..(m - start).min(256)];
+            for (j, r) in block.iter_mut().enumerate() {
+                let x = row(start + j);
+                *r = y[start + j] - (0..P).map(|c| beta[c] * x[c]).sum::<f64>();
+            }
+            lags.extend(block);
         }
-        lags.extend(block);
+        lags
     }
-    let rss = lags.sum_of_squares();
+    let (rss, noise) = noise_by_lags(
+        m,
+        || residual_lags(y, &row, &beta),
+        || residual_lags(y, &row, &beta),
+    );
     let dof = m - P;
     let s2 = rss / dof as f64;
     let normal = DMatrix::from_fn(P, P, |a, b| raw[a][b]);
     let inv = normal.clone().try_inverse().ok_or_else(rank)?;
     let plain = &inv * s2;
-    let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
     // The sandwich of `regression::sandwich_covariance` with the rows made on the fly (the
     // Jacobian is −X; the sign cancels in every product).
     let mut middle = &normal * (1.0 - noise.c);
@@ -1181,7 +1219,7 @@ mod tests {
         // Reference: the direct definition in `autocorrelation`.
         for n in [1, 2, 5, 10, 11, 37, 1000] {
             let r = series(n, n as u64);
-            let mut lags = LagSums::new();
+            let mut lags = LagSums::<LAGS>::new();
             for &v in &r {
                 lags.extend(std::slice::from_ref(&v));
             }
@@ -1197,7 +1235,7 @@ mod tests {
     fn block_lag_sums_match_one_at_a_time() {
         let r = series(1000, 11);
         for block in [1, 3, 10, 17, 256] {
-            let mut lags = LagSums::new();
+            let mut lags = LagSums::<LAGS>::new();
             r.chunks(block).for_each(|c| lags.extend(c));
             for (x, y) in autocorrelation(&r).iter().zip(&lags.finish()) {
                 assert!((x - y).abs() < 1e-12, "block {block}: {x} vs {y}");
@@ -1208,10 +1246,83 @@ mod tests {
     }
 
     #[test]
+    fn the_first_lag_alone_is_the_first_lag_of_all() {
+        // ρ(1) from the one-lag sums must be the same number as from the ten-lag sums, block
+        // by block and joined, so that `noise_by_lags` decides white noise as one pass would.
+        for (n, block) in [(1000, 256), (1003, 256), (37, 5), (25, 1)] {
+            let r = series(n, 5);
+            let (mut one, mut all) = (LagSums::<1>::new(), LagSums::<LAGS>::new());
+            r.chunks(block).for_each(|c| {
+                one.extend(c);
+                all.extend(c);
+            });
+            assert_eq!(
+                one.finish()[0].to_bits(),
+                all.finish()[0].to_bits(),
+                "n = {n}"
+            );
+            assert_eq!(
+                one.sum_of_squares().to_bits(),
+                all.sum_of_squares().to_bits()
+            );
+            let (mut a1, mut b1) = (LagSums::<1>::new(), LagSums::<1>::new());
+            let (mut a, mut b) = (LagSums::<LAGS>::new(), LagSums::<LAGS>::new());
+            let split = n / 2;
+            a1.extend(&r[..split]);
+            b1.extend(&r[split..]);
+            a.extend(&r[..split]);
+            b.extend(&r[split..]);
+            let (j1, j) = (a1.join(&b1).expect("long"), a.join(&b).expect("long"));
+            assert_eq!(j1.finish()[0].to_bits(), j.finish()[0].to_bits(), "n = {n}");
+        }
+    }
+
+    #[test]
+    fn noise_by_lags_is_the_noise_of_every_lag() {
+        // Reference: `NoiseModel::from_autocorrelation` of all ten lags in one pass. White
+        // series must not take the second pass; AR(1) series must, and give the same model.
+        for phi in [0.0, 0.3, 0.9] {
+            let mut state = 0x9e37_79b9_7f4a_7c15_u64;
+            let mut e = 0.0;
+            let r: Vec<f64> = (0..5000)
+                .map(|_| {
+                    state ^= state << 13;
+                    state ^= state >> 7;
+                    state ^= state << 17;
+                    e = phi * e + (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                    e
+                })
+                .collect();
+            let fill = <LagSums<LAGS>>::new;
+            let mut all = fill();
+            all.extend(&r);
+            let expected = NoiseModel::from_autocorrelation(&all.finish(), r.len());
+            let second = std::cell::Cell::new(false);
+            let (rss, noise) = noise_by_lags(
+                r.len(),
+                || {
+                    let mut one = LagSums::<1>::new();
+                    one.extend(&r);
+                    one
+                },
+                || {
+                    second.set(true);
+                    let mut all = fill();
+                    all.extend(&r);
+                    all
+                },
+            );
+            assert_eq!(noise, expected, "phi = {phi}");
+            assert_eq!(second.get(), phi > 0.0, "phi = {phi}");
+            assert_eq!(rss.to_bits(), all.sum_of_squares().to_bits());
+        }
+    }
+
+    #[test]
     fn joined_lag_sums_match_one_pass() {
         let r = series(1000, 7);
         for split in [10, 11, 500, 990] {
-            let (mut a, mut b) = (LagSums::new(), LagSums::new());
+            let (mut a, mut b) = (LagSums::<LAGS>::new(), LagSums::<LAGS>::new());
             a.extend(&r[..split]);
             b.extend(&r[split..]);
             let joined = a.join(&b).expect("both parts are long enough").finish();
@@ -1219,7 +1330,7 @@ mod tests {
                 assert!((x - y).abs() < 1e-12, "split {split}: {x} vs {y}");
             }
         }
-        let (mut a, b) = (LagSums::new(), LagSums::new());
+        let (mut a, b) = (LagSums::<LAGS>::new(), LagSums::<LAGS>::new());
         a.extend(&[1.0]);
         assert!(a.join(&b).is_none());
     }

@@ -14,8 +14,10 @@ use std::cell::{Cell, RefCell};
 use nalgebra::{DMatrix, DVector};
 
 use crate::FitError;
-use crate::models::common::{LagSums, Solved, TwoByTwo, two_parameter_sandwich};
-use crate::regression::NoiseModel;
+use crate::lanes::{lane_sums, lane_total};
+use crate::models::common::{
+    LAGS, LagSums, Solved, TwoByTwo, noise_by_lags, two_parameter_sandwich,
+};
 use crate::solver::{LeastSquaresProblem, NonlinearFit, SolveOptions, minimise};
 
 /// Below this many points a pass runs on one thread. Measured with `benches/microdisk.rs` on
@@ -27,9 +29,6 @@ const PARALLEL_MIN: usize = 500_000;
 
 /// Points of the strided sample the start grid runs on.
 const START_POINTS: usize = 500;
-
-/// Points evaluated together in a pass.
-const LANES: usize = 4;
 
 /// Residuals buffered for the lagged sums.
 const BLOCK: usize = 256;
@@ -173,20 +172,23 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
     /// three.
     fn start(&self) -> (f64, f64) {
         let stride = (self.x.len() / START_POINTS).max(1);
-        let sub: Vec<(f64, f64)> = self
-            .x
-            .iter()
-            .zip(self.y)
-            .step_by(stride)
-            .map(|(x, y)| (*x, *y))
-            .collect();
+        let xs: Vec<f64> = self.x.iter().step_by(stride).copied().collect();
+        let ys: Vec<f64> = self.y.iter().step_by(stride).copied().collect();
+        let yy = ys.iter().fold(0.0, |acc, y| acc + y * y);
+        // The shape over a block of the sample first (a plain map, which the compiler
+        // vectorises), then the sums in order.
         let cost = |d: f64| {
-            let (mut gg, mut gy, mut yy) = (0.0, 0.0, 0.0);
-            for &(x, y) in &sub {
-                let g = (self.shape)(d, x).0;
-                gg += g * g;
-                gy += g * y;
-                yy += y * y;
+            let (mut gg, mut gy) = (0.0, 0.0);
+            let mut gb = [0.0f64; BLOCK];
+            for (xs, ys) in xs.chunks(BLOCK).zip(ys.chunks(BLOCK)) {
+                let gs = &mut gb[..xs.len()];
+                for (g, &x) in gs.iter_mut().zip(xs) {
+                    *g = (self.shape)(d, x).0;
+                }
+                for (&g, &y) in gs.iter().zip(ys) {
+                    gg += g * g;
+                    gy += g * y;
+                }
             }
             if gg > 0.0 {
                 (yy - gy * gy / gg, gy / gg)
@@ -278,8 +280,13 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             _ => (d_lm, lm),
         };
         let (k, sums) = (last.k, last.sums);
-        // The residuals once more, for their sum of squares and autocorrelation.
-        let (rss, lags) = self.residual_pass(d, k);
+        // The residuals once more, for their sum of squares and autocorrelation (the lags past
+        // the first only when the first shows correlation).
+        let (rss, noise) = noise_by_lags(
+            m,
+            || self.residual_pass::<1>(d, k),
+            || self.residual_pass::<LAGS>(d, k),
+        );
         // JᵀJ of the two-parameter problem, rows (−K·g′, −g).
         let a = [k * k * sums.dd, k * sums.gd, sums.gg];
         let TwoByTwo {
@@ -304,7 +311,6 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             termination: run.termination,
             condition_number: ((1.0 + c) / (1.0 - c)).sqrt(),
         };
-        let noise = NoiseModel::from_autocorrelation(&lags.finish(), m);
         // One more pass over the data, only for correlated residuals.
         let covariance = two_parameter_sandwich(
             a,
@@ -326,9 +332,9 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
         })
     }
 
-    /// The residuals at `(D, K)`: their sum of squares and lagged sums, on two threads for
-    /// long transients.
-    fn residual_pass(&self, d: f64, k: f64) -> (f64, LagSums) {
+    /// The residuals at `(D, K)`: their sum of squares and lagged sums of the first `L` lags,
+    /// on two threads for long transients.
+    fn residual_pass<const L: usize>(&self, d: f64, k: f64) -> LagSums<L> {
         self.passes.set(self.passes.get() + 1);
         let shape = &self.shape;
         let part = |x: &[f64], y: &[f64]| {
@@ -341,7 +347,7 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
                 }
                 lags.extend(block);
             }
-            (lags.sum_of_squares(), lags)
+            lags
         };
         let m = self.x.len();
         if !parallel(m) {
@@ -350,7 +356,7 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
         let half = m / 2;
         let (x1, x2) = self.x.split_at(half);
         let (y1, y2) = self.y.split_at(half);
-        let ((rss1, lags1), (rss2, lags2)) = std::thread::scope(|scope| {
+        let (lags1, lags2) = std::thread::scope(|scope| {
             let other = scope.spawn(|| part(x2, y2));
             let first = part(x1, y1);
             match other.join() {
@@ -359,7 +365,7 @@ impl<'a, G: Fn(f64, f64) -> (f64, f64) + Sync> ProjectedByNc<'a, G> {
             }
         });
         match lags1.join(&lags2) {
-            Some(lags) => (rss1 + rss2, lags),
+            Some(lags) => lags,
             // Not reached: both halves of a parallel pass are long.
             None => part(self.x, self.y),
         }
@@ -380,52 +386,36 @@ fn sums_over<G: Fn(f64, f64) -> (f64, f64)>(
     k0: f64,
 ) -> Sums {
     // The shape over a block of points first (a plain map, which the compiler vectorises),
-    // then four running sums of each kind over the block.
-    let mut acc = [[0.0f64; LANES]; 6];
+    // then each sum in its own four-lane loop over the block: one loop updating all six sums
+    // compiled to shuffles between half-filled vectors and was slower.
+    let mut acc = [[0.0f64; 4]; 6];
     let mut gb = [0.0f64; BLOCK];
     let mut db = [0.0f64; BLOCK];
     for (xs, ys) in x.chunks(BLOCK).zip(y.chunks(BLOCK)) {
         let n = xs.len();
-        for ((g, dg), &x) in gb[..n].iter_mut().zip(&mut db[..n]).zip(xs) {
+        let (g, dg) = (&mut gb[..n], &mut db[..n]);
+        for ((g, dg), &x) in g.iter_mut().zip(dg.iter_mut()).zip(xs) {
             (*g, *dg) = shape(d, x);
         }
-        let gc = gb[..n].chunks_exact(LANES);
-        let dc = db[..n].chunks_exact(LANES);
-        let yc = ys.chunks_exact(LANES);
-        let tail = gc
-            .remainder()
-            .iter()
-            .zip(dc.remainder())
-            .zip(yc.remainder());
-        for (l, ((&g, &dg), &y)) in tail.enumerate() {
+        let (g, dg) = (&*g, &*dg);
+        lane_sums(&mut acc[0], g, ys, |g, y| {
             let r = y - k0 * g;
-            acc[0][l] += r * r;
-            acc[1][l] += g * g;
-            acc[2][l] += g * y;
-            acc[3][l] += dg * y;
-            acc[4][l] += g * dg;
-            acc[5][l] += dg * dg;
-        }
-        for ((g, dg), y) in gc.zip(dc).zip(yc) {
-            for l in 0..LANES {
-                let r = y[l] - k0 * g[l];
-                acc[0][l] += r * r;
-                acc[1][l] += g[l] * g[l];
-                acc[2][l] += g[l] * y[l];
-                acc[3][l] += dg[l] * y[l];
-                acc[4][l] += g[l] * dg[l];
-                acc[5][l] += dg[l] * dg[l];
-            }
-        }
+            r * r
+        });
+        lane_sums(&mut acc[1], g, g, |g, _| g * g);
+        lane_sums(&mut acc[2], g, ys, |g, y| g * y);
+        lane_sums(&mut acc[3], dg, ys, |dg, y| dg * y);
+        lane_sums(&mut acc[4], g, dg, |g, dg| g * dg);
+        lane_sums(&mut acc[5], dg, dg, |dg, _| dg * dg);
     }
-    let total = |a: [f64; LANES]| (a[0] + a[1]) + (a[2] + a[3]);
+    let [rss_ref, gg, gy, dy, gd, dd] = acc.map(lane_total);
     Sums {
-        rss_ref: total(acc[0]),
-        gg: total(acc[1]),
-        gy: total(acc[2]),
-        dy: total(acc[3]),
-        gd: total(acc[4]),
-        dd: total(acc[5]),
+        rss_ref,
+        gg,
+        gy,
+        dy,
+        gd,
+        dd,
     }
 }
 
