@@ -1155,15 +1155,24 @@ pub(crate) fn two_parameter_sandwich(
         let phi = noise.phi;
         let (mut h, mut prev) = ([0.0f64; 2], [0.0f64; 2]);
         let mut acc = [0.0f64; 3];
-        for (i, &x) in at.iter().enumerate() {
-            let z = row(x);
-            if i > 0 {
-                h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
+        // The rows of a block first (a plain map, which the compiler vectorises), then the
+        // recursion through them in order.
+        let (mut z0, mut z1) = ([0.0f64; 256], [0.0f64; 256]);
+        for (b, xs) in at.chunks(256).enumerate() {
+            let n = xs.len();
+            for ((z0, z1), &x) in z0[..n].iter_mut().zip(&mut z1[..n]).zip(xs) {
+                [*z0, *z1] = row(x);
             }
-            acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
-            acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
-            acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
-            prev = z;
+            for (j, (&a, &b1)) in z0[..n].iter().zip(&z1[..n]).enumerate() {
+                let z = [a, b1];
+                if b > 0 || j > 0 {
+                    h = [phi * (h[0] + prev[0]), phi * (h[1] + prev[1])];
+                }
+                acc[0] += z[0] * z[0] + 2.0 * z[0] * h[0];
+                acc[1] += z[0] * z[1] + z[0] * h[1] + h[0] * z[1];
+                acc[2] += z[1] * z[1] + 2.0 * z[1] * h[1];
+                prev = z;
+            }
         }
         for j in 0..3 {
             middle[j] += noise.c * acc[j];
