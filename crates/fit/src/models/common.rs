@@ -317,11 +317,16 @@ impl<const K: usize> LagSums<K> {
             let mut acc = [[0.0f64; 4]; K];
             let body = &r[LAGS..];
             let chunks = body.len() / 4;
-            for c in 0..chunks {
-                let i = LAGS + 4 * c;
-                for (k, a) in acc.iter_mut().enumerate() {
+            // Lag k + 1 pairs the body with the same-length run k + 1 points earlier; each
+            // four-point product is two plain (unaligned) loads.
+            let lagged: [&[f64]; K] = std::array::from_fn(|k| &r[LAGS - k - 1..len - k - 1]);
+            for (c, x) in body.as_chunks::<4>().0.iter().enumerate() {
+                for (a, run) in acc.iter_mut().zip(&lagged) {
+                    let Some(y) = run.get(4 * c..4 * c + 4) else {
+                        unreachable!("every run is as long as the body")
+                    };
                     for l in 0..4 {
-                        a[l] += r[i + l] * r[i + l - k - 1];
+                        a[l] += x[l] * y[l];
                     }
                 }
             }
